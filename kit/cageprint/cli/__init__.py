@@ -1,0 +1,73 @@
+"""The ``cageprint`` command line.
+
+Each sub-command lives in its own module of this package and offers two
+functions: ``add_parser(subparsers)`` (declare the command and its options)
+and ``run(args) -> int`` (do the work, print, return the exit code).  A new
+command is added by writing such a module and naming it in ``COMMANDS``.
+
+Errors of the kit (:class:`cageprint.errors.CageprintError`) are printed on
+one line to standard error and the command exits with status 2.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from ..errors import CageprintError
+
+#: sub-command name -> module in this package
+COMMANDS: dict[str, str] = {
+    "isomers": "isomers",
+    "mass": "mass",
+    "envelope": "envelope",
+    "assign": "assign",
+    "demo": "demo",
+    "run-notebooks": "notebooks",
+}
+
+
+def _load(module: str):
+    try:
+        return importlib.import_module(f"{__name__}.{module}")
+    except ModuleNotFoundError as exc:  # command not written yet
+        if exc.name == f"{__name__}.{module}":
+            return None
+        raise
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """Return the argument parser with every available sub-command."""
+    from .. import __version__
+
+    parser = argparse.ArgumentParser(
+        prog="cageprint",
+        description="Candidate carbon cages, their predicted fingerprints, and the "
+        "comparison with measured spectra.",
+    )
+    parser.add_argument("--version", action="version", version=f"cageprint {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub.required = True
+    for name, module in COMMANDS.items():
+        mod = _load(module)
+        if mod is None:
+            continue
+        p = mod.add_parser(sub)
+        p.set_defaults(_run=mod.run)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit status."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    try:
+        return int(args._run(args) or 0)
+    except CageprintError as exc:
+        msg = " ".join(str(exc).split())
+        print(f"cageprint {args.command}: error: {msg}", file=sys.stderr)
+        return 2
+    except BrokenPipeError:  # e.g. `cageprint isomers 60 | head`
+        return 0

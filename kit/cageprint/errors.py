@@ -1,0 +1,73 @@
+"""The kit's one small exception family.
+
+Every error the kit raises on purpose is a :class:`CageprintError`, itself a
+:class:`ValueError`, so callers may catch either.  Messages name the argument,
+file, line or record, what was expected and what was found, and, where a
+tolerance is involved, the tolerance to change.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "CageprintError",
+    "CageError",
+    "SymmetryError",
+    "SpectrumFormatError",
+    "SpectrumError",
+    "FormulaError",
+    "EvidenceError",
+    "SessionError",
+]
+
+
+class CageprintError(ValueError):
+    """Base class of every error raised on purpose by cageprint."""
+
+
+class CageError(CageprintError):
+    """Bad cage input: atom count, face spiral, or a graph that is not a fullerene."""
+
+
+class SymmetryError(CageprintError):
+    """Symmetry could not be found or realised within the stated tolerance."""
+
+
+class SpectrumFormatError(CageprintError):
+    """A file or byte string could not be read as a spectrum.
+
+    Parameters
+    ----------
+    message : str
+        What is wrong, in plain words.
+    source : str, optional
+        File name (or ``"<bytes>"``) the problem was found in.
+    line : int, optional
+        One-based line number (or record number for mzML) of the problem.
+    """
+
+    def __init__(self, message: str, source: str | None = None, line: int | None = None):
+        self.source = source
+        self.line = line
+        where = ""
+        if source is not None:
+            where = f"{source}"
+            if line is not None:
+                where += f", line {line}"
+            where += ": "
+        super().__init__(f"{where}{message}")
+
+
+class SpectrumError(CageprintError):
+    """A valid spectrum that cannot be processed as asked (no peaks, bad region, ...)."""
+
+
+class FormulaError(CageprintError):
+    """A chemical formula or charge that cannot be used."""
+
+
+class EvidenceError(CageprintError):
+    """Inputs to the comparison or ranking are inconsistent."""
+
+
+class SessionError(CageprintError):
+    """A session could not be saved, loaded or updated."""

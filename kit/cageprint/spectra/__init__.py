@@ -1,0 +1,5 @@
+"""Measured spectra: one model, readers behind one loader, processing."""
+
+from .model import TECHNIQUES, Spectrum
+
+__all__ = ["Spectrum", "TECHNIQUES"]
