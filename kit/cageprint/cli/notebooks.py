@@ -1,0 +1,297 @@
+"""``cageprint run-notebooks``: execute the template notebooks headless and keep shareable copies.
+
+Each notebook runs in a fresh ``python3`` kernel with its own folder as the
+working directory.  ``--param KEY=VALUE`` values are injected as a new cell
+right after the cell tagged ``parameters`` (a later assignment wins, so the
+template's defaults stay visible).  For every notebook two files are written:
+
+* ``NAME.ipynb``: the executed copy **without** widget state (a plotly
+  FigureWidget would add ~5 MB of front-end code to it and still not
+  re-render without a kernel); live-widget outputs keep a one-line note;
+* ``NAME.html``: an HTML export in which the static figures carry plotly.js
+  once, embedded, and no ``<script src=...>`` points to the internet.
+
+Figures survive both because the kernel is started with
+``PLOTLY_RENDERER=plotly_mimetype+notebook`` (JupyterLab draws the mimetype,
+the HTML export the embedded script).
+
+The heavy Jupyter packages are imported only when the command runs, so the
+command-line core stays importable without them.
+"""
+
+from __future__ import annotations
+
+import argparse
+import ast
+import json
+import os
+import pathlib
+import re
+import time
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+
+from ..errors import CageprintError
+
+#: plotly renderer for kernels started here (see module docstring)
+PLOTLY_RENDERER = "plotly_mimetype+notebook"
+#: seconds one cell may run before the notebook counts as failed
+CELL_TIMEOUT = 300
+#: mimetype under which a notebook's last cell states its conclusion
+CONCLUSION_MIME = "application/vnd.cageprint.conclusion+json"
+#: text left in place of a live widget in the executed copy
+WIDGET_NOTE = "[live control: open this notebook in JupyterLab and run it to use it]"
+
+_WIDGET_MIME = "application/vnd.jupyter.widget-view+json"
+_REMOTE_SCRIPT = re.compile(
+    r"<script[^>]*\bsrc\s*=\s*[\"']?(?:https?:)?//[^>]*>\s*</script>", re.IGNORECASE
+)
+_KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+
+
+class NotebookRunError(CageprintError):
+    """A notebook could not be prepared or failed while running."""
+
+
+@dataclass(frozen=True)
+class NotebookRun:
+    """What one headless run produced.
+
+    Attributes
+    ----------
+    source : pathlib.Path
+        The template notebook.
+    notebook, html : pathlib.Path
+        Executed copy and its HTML export.
+    seconds : float
+        Wall time of the execution (kernel start included).
+    conclusion : dict or None
+        The payload of the last :data:`CONCLUSION_MIME` output, if any.
+    """
+
+    source: pathlib.Path
+    notebook: pathlib.Path
+    html: pathlib.Path
+    seconds: float
+    conclusion: dict | None = field(default=None)
+
+
+def default_notebooks_dir() -> pathlib.Path:
+    """The repository's ``notebooks/`` folder (next to ``kit/``), or ``./notebooks``."""
+    here = pathlib.Path(__file__).resolve()
+    for parent in here.parents:
+        cand = parent / "notebooks"
+        if cand.is_dir() and (parent / "pyproject.toml").exists():
+            return cand
+    return pathlib.Path("notebooks")
+
+
+def parse_params(items: Sequence[str]) -> dict[str, object]:
+    """Turn ``["KEY=VALUE", ...]`` into a dict; values are Python literals or plain text.
+
+    Examples
+    --------
+    >>> parse_params(["nmr_file='a.jdx'", "snr=5", "fraction=B"])
+    {'nmr_file': 'a.jdx', 'snr': 5, 'fraction': 'B'}
+    """
+    out: dict[str, object] = {}
+    for item in items:
+        key, sep, raw = item.partition("=")
+        key = key.strip()
+        if not sep or not _KEY.match(key):
+            raise NotebookRunError(
+                f"--param {item!r}: expected KEY=VALUE with KEY a Python name, found no usable KEY"
+            )
+        try:
+            value: object = ast.literal_eval(raw.strip())
+        except (ValueError, SyntaxError):
+            value = raw.strip()
+        out[key] = value
+    return out
+
+
+def inject_parameters(nb, params: Mapping[str, object]) -> None:
+    """Insert a cell tagged ``injected-parameters`` after the ``parameters`` cell.
+
+    Raises :class:`NotebookRunError` when parameters are given but the
+    notebook has no cell tagged ``parameters``.
+    """
+    if not params:
+        return
+    import nbformat
+
+    idx = next(
+        (i for i, c in enumerate(nb.cells) if "parameters" in c.get("metadata", {}).get("tags", [])),
+        None,
+    )
+    if idx is None:
+        raise NotebookRunError(
+            "notebook has no cell tagged 'parameters'; cannot inject "
+            + ", ".join(sorted(params))
+        )
+    lines = ["# Parameters injected by `cageprint run-notebooks`"]
+    lines += [f"{k} = {v!r}" for k, v in params.items()]
+    cell = nbformat.v4.new_code_cell("\n".join(lines))
+    cell.metadata["tags"] = ["injected-parameters"]
+    nb.cells.insert(idx + 1, cell)
+
+
+def _tidy_widget_outputs(nb) -> None:
+    for cell in nb.cells:
+        for out in cell.get("outputs", []):
+            data = out.get("data")
+            if data and _WIDGET_MIME in data:
+                data["text/plain"] = WIDGET_NOTE
+
+
+def find_conclusion(nb) -> dict | None:
+    """Return the last conclusion payload written in an executed notebook, or None."""
+    found = None
+    for cell in nb.cells:
+        for out in cell.get("outputs", []):
+            data = out.get("data") or {}
+            if CONCLUSION_MIME in data:
+                payload = data[CONCLUSION_MIME]
+                found = json.loads(payload) if isinstance(payload, str) else dict(payload)
+    return found
+
+
+def export_html(nb) -> str:
+    """HTML of an executed notebook with every remote ``<script src=...>`` removed.
+
+    The static figures bring their own embedded plotly.js, so nothing is
+    lost offline; remote loaders (require.js, MathJax) would only fail there.
+    """
+    from nbconvert import HTMLExporter
+
+    exporter = HTMLExporter()
+    body, _ = exporter.from_notebook_node(nb)
+    return _REMOTE_SCRIPT.sub("", body)
+
+
+def run_notebook(
+    path: str | os.PathLike,
+    out_dir: str | os.PathLike,
+    params: Mapping[str, object] | None = None,
+    timeout: int = CELL_TIMEOUT,
+) -> NotebookRun:
+    """Execute one notebook headless; write the executed copy and its HTML export.
+
+    Parameters
+    ----------
+    path : path-like
+        The template notebook; it runs with its own folder as working directory.
+    out_dir : path-like
+        Where ``NAME.ipynb`` and ``NAME.html`` are written (created if needed).
+    params : mapping, optional
+        Values injected after the cell tagged ``parameters``.
+    timeout : int
+        Seconds one cell may take.
+
+    Returns
+    -------
+    NotebookRun
+    """
+    import nbformat
+    from nbclient import NotebookClient
+    from nbclient.exceptions import CellExecutionError
+
+    src = pathlib.Path(path).resolve()
+    if not src.is_file():
+        raise NotebookRunError(f"notebook {str(path)!r}: no such file")
+    try:
+        nb = nbformat.read(src, as_version=4)
+    except Exception as exc:  # nbformat raises several unrelated types
+        raise NotebookRunError(f"notebook {src.name!r}: not a readable .ipynb ({exc})") from exc
+    inject_parameters(nb, params or {})
+    out = pathlib.Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+
+    old = os.environ.get("PLOTLY_RENDERER")
+    os.environ["PLOTLY_RENDERER"] = PLOTLY_RENDERER  # kernels inherit the environment
+    t0 = time.perf_counter()
+    client = NotebookClient(
+        nb,
+        timeout=timeout,
+        kernel_name="python3",
+        store_widget_state=False,
+        resources={"metadata": {"path": str(src.parent)}},
+    )
+    error: str | None = None
+    try:
+        client.execute()
+    except CellExecutionError as exc:
+        error = str(exc)
+    finally:
+        if old is None:
+            os.environ.pop("PLOTLY_RENDERER", None)
+        else:
+            os.environ["PLOTLY_RENDERER"] = old
+    seconds = time.perf_counter() - t0
+    nb.metadata.pop("widgets", None)
+    _tidy_widget_outputs(nb)
+    ipynb = out / src.name
+    nbformat.write(nb, ipynb)
+    html = out / (src.stem + ".html")
+    html.write_text(export_html(nb), encoding="utf-8")
+    if error is not None:
+        last = error.strip().splitlines()[-1] if error.strip() else "cell failed"
+        raise NotebookRunError(
+            f"notebook {src.name!r} failed after {seconds:.1f} s: {last} "
+            f"(executed copy with the traceback: {ipynb})"
+        )
+    return NotebookRun(src, ipynb, html, seconds, find_conclusion(nb))
+
+
+def run_notebooks(
+    notebooks: Sequence[str | os.PathLike] | None = None,
+    out_dir: str | os.PathLike = "out/notebooks",
+    params: Mapping[str, object] | None = None,
+    timeout: int = CELL_TIMEOUT,
+) -> list[NotebookRun]:
+    """Execute several notebooks (default: every ``*.ipynb`` in ``notebooks/``), in name order."""
+    if not notebooks:
+        folder = default_notebooks_dir()
+        notebooks = sorted(folder.glob("[0-9]*.ipynb"))
+        if not notebooks:
+            raise NotebookRunError(f"no numbered notebooks found in {folder}")
+    return [run_notebook(p, out_dir, params, timeout) for p in notebooks]
+
+
+def add_parser(sub) -> argparse.ArgumentParser:
+    p = sub.add_parser(
+        "run-notebooks",
+        help="execute the template notebooks headless; write executed copies and HTML",
+        description="Execute notebooks headless (default: every numbered notebook in "
+        "notebooks/) and write, per notebook, an executed copy without widget state and an "
+        "HTML export that opens offline.",
+    )
+    p.add_argument("notebooks", nargs="*", metavar="NOTEBOOK", help="notebooks to run")
+    p.add_argument("--out", default="out/notebooks", metavar="DIR",
+                   help="output folder (default: out/notebooks)")
+    p.add_argument("--param", action="append", default=[], metavar="KEY=VALUE",
+                   help="value for the notebooks' parameters cell; repeatable")
+    p.add_argument("--timeout", type=int, default=CELL_TIMEOUT, metavar="S",
+                   help=f"seconds one cell may take (default {CELL_TIMEOUT})")
+    return p
+
+
+def run(args) -> int:
+    params = parse_params(args.param)
+    failed = 0
+    paths = args.notebooks or None
+    targets = list(paths) if paths else sorted(default_notebooks_dir().glob("[0-9]*.ipynb"))
+    if not targets:
+        raise NotebookRunError(f"no numbered notebooks found in {default_notebooks_dir()}")
+    for nbpath in targets:
+        try:
+            res = run_notebook(nbpath, args.out, params, args.timeout)
+        except NotebookRunError as exc:
+            failed += 1
+            print(f"FAILED {pathlib.Path(nbpath).name}: {exc}")
+            continue
+        said = ""
+        if res.conclusion:
+            said = "  -> " + str(res.conclusion.get("summary", ""))
+        print(f"ok     {res.source.name}  {res.seconds:5.1f} s  {res.notebook}  {res.html}{said}")
+    return 1 if failed else 0
