@@ -1,0 +1,138 @@
+"""Atom and bond orbits under the automorphism group: 13C NMR lines and INADEQUATE links.
+
+Symmetry-equivalent carbons give one 13C line whose intensity is proportional
+to the orbit size (equal relaxation and NOE assumed, as usual for fullerene
+spectra).  In a 13C-enriched sample the 2D INADEQUATE spectrum links two lines
+when bonds join their carbons; the number of such bonds is the relative
+strength of the cross peak pair.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = [
+    "atom_orbits",
+    "bond_list",
+    "bond_orbits",
+    "inadequate_links",
+    "orbit_pattern",
+]
+
+
+def _orbit_groups(rep: np.ndarray) -> list[tuple[int, ...]]:
+    """Group items by orbit representative; largest orbit first, ties by smallest member."""
+    order = np.argsort(rep, kind="stable")
+    reps, starts = np.unique(rep[order], return_index=True)
+    groups = np.split(order, starts[1:])
+    out = [tuple(sorted(int(v) for v in g)) for g in groups]
+    out.sort(key=lambda g: (-len(g), g[0]))
+    return out
+
+
+def atom_orbits(perms) -> tuple[tuple[int, ...], ...]:
+    """Orbits of the atoms under a permutation group.
+
+    Parameters
+    ----------
+    perms : array_like
+        ``(g, n)`` permutations forming a group.
+
+    Returns
+    -------
+    tuple of tuple of int
+        Atoms of each orbit in increasing order; orbits largest first, ties
+        by smallest atom index.
+
+    Examples
+    --------
+    >>> atom_orbits([[0, 1, 2, 3], [1, 0, 2, 3]])
+    ((0, 1), (2,), (3,))
+    """
+    p = np.asarray(perms, dtype=np.int64)
+    return tuple(_orbit_groups(p.min(axis=0)))
+
+
+def bond_list(neighbours) -> np.ndarray:
+    """``(3n/2, 2)`` bonds ``i < j`` in sorted order from a neighbour table.
+
+    Examples
+    --------
+    >>> bond_list([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]).tolist()
+    [[0, 1], [0, 2], [0, 3], [1, 2], [1, 3], [2, 3]]
+    """
+    nb = np.asarray(neighbours, dtype=np.int64)
+    i = np.repeat(np.arange(nb.shape[0]), nb.shape[1])
+    j = nb.ravel()
+    keep = i < j
+    b = np.stack([i[keep], j[keep]], axis=1)
+    return b[np.lexsort((b[:, 1], b[:, 0]))]
+
+
+def bond_orbits(perms, bonds) -> tuple[tuple[tuple[int, int], ...], ...]:
+    """Orbits of the bonds, each bond as ``(i, j)`` with ``i < j``.
+
+    Examples
+    --------
+    >>> bond_orbits([[0, 1, 2], [1, 0, 2]], [[0, 1], [0, 2], [1, 2]])
+    (((0, 2), (1, 2)), ((0, 1),))
+    """
+    p = np.asarray(perms, dtype=np.int64)
+    b = np.asarray(bonds, dtype=np.int64)
+    n = p.shape[1]
+    a, c = p[:, b[:, 0]], p[:, b[:, 1]]
+    code = np.minimum(a, c) * n + np.maximum(a, c)  # (g, m)
+    rep = code.min(axis=0)
+    groups = _orbit_groups(rep)
+    return tuple(tuple((int(b[k, 0]), int(b[k, 1])) for k in g) for g in groups)
+
+
+def inadequate_links(orbits, bond_orbits_) -> tuple[tuple[int, int, int], ...]:
+    """Which pairs of 13C lines are bonded, and by how many bonds.
+
+    Parameters
+    ----------
+    orbits : sequence of sequence of int
+        Atom orbits (the NMR lines), as from :func:`atom_orbits`.
+    bond_orbits_ : sequence of sequence of (int, int)
+        Bond orbits, as from :func:`bond_orbits`.
+
+    Returns
+    -------
+    tuple of (line_a, line_b, n_bonds)
+        ``line_a <= line_b`` are indices into ``orbits``; ``n_bonds`` counts the
+        bonds joining a carbon of one line to a carbon of the other.  A line
+        linked to itself (``line_a == line_b``) gives no INADEQUATE cross peak
+        (equal shifts) but is listed for completeness.  Sorted by lines.
+
+    Examples
+    --------
+    >>> inadequate_links([(0, 1), (2,)], [((0, 2), (1, 2)), ((0, 1),)])
+    ((0, 0, 1), (0, 1, 2))
+    """
+    line = {}
+    for k, orb in enumerate(orbits):
+        for a in orb:
+            line[int(a)] = k
+    count: dict[tuple[int, int], int] = {}
+    for orb in bond_orbits_:
+        i, j = orb[0]
+        key = tuple(sorted((line[int(i)], line[int(j)])))
+        count[key] = count.get(key, 0) + len(orb)
+    return tuple((a, b, c) for (a, b), c in sorted(count.items()))
+
+
+def orbit_pattern(sizes) -> str:
+    """Orbit sizes written as groups, largest first: ``2x20+3x10``.
+
+    Examples
+    --------
+    >>> orbit_pattern([10, 20, 10, 20, 10])
+    '2x20+3x10'
+    >>> orbit_pattern([60])
+    '1x60'
+    """
+    counts: dict[int, int] = {}
+    for s in sizes:
+        counts[int(s)] = counts.get(int(s), 0) + 1
+    return "+".join(f"{counts[s]}x{s}" for s in sorted(counts, reverse=True))
