@@ -1,0 +1,646 @@
+"""13C NMR: observed cage lines against each candidate's orbit pattern.
+
+``predict_nmr`` comes from :mod:`cageprint.symmetry` (orbits of the
+automorphism group).  ``observe_nmr`` finds the cage lines of a spectrum (or
+takes a peak list), drops solvent and reference lines, and integrates.
+``compare_nmr`` finds the best explanation of the observed lines by the
+predicted orbits, allowing what real spectra do:
+
+* two or three orbits on one line (accidental coincidence; intensities add),
+* orbits not seen (weak lines lost in noise),
+* a few impurity lines,
+* integrals off by 10-20 %.
+
+Notes
+-----
+The comparison is a small dynamic programme over the observed lines.  Orbits
+of the same size are interchangeable (the shifts are not predicted), so the
+state is how many orbits of each distinct size have been used.  Each line is
+either an impurity (cost :data:`NMR_IMPURITY_COST`) or carries one to
+:data:`NMR_MAX_MERGE` orbits, costing the squared log-ratio of its scaled
+integral to the carbons it carries over :data:`NMR_INTEGRAL_TOL` (halved),
+plus :data:`NMR_MERGE_COST` per extra orbit.  Unused orbits cost
+:data:`NMR_MISSING_COST` each.  The integral scale (carbons per unit area) is
+fitted by alternating with the assignment.  The score is minus the cost.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from types import MappingProxyType
+from typing import Any
+
+import numpy as np
+
+from ..errors import EvidenceError, SpectrumError
+from ..evidence import Candidate, TechniqueVerdict, _plain
+
+__all__ = [
+    "NMR_REGION",
+    "NMR_SNR",
+    "NMR_INTEGRAL_TOL",
+    "NMR_MAX_MERGE",
+    "NmrObservation",
+    "StickSpectrum",
+    "predict_nmr",
+    "observe_nmr",
+    "compare_nmr",
+    "pyramidalization_angles",
+    "estimated_stick_spectrum",
+]
+
+#: default window of sp2 cage carbons, ppm (common practice, no source: fullerene
+#: 13C lines fall between about 128 and 158 ppm)
+NMR_REGION: tuple[float, float] = (125.0, 160.0)
+#: minimum signal-to-noise of a line in a profile spectrum
+NMR_SNR = 5.0
+#: half-width (ppm) of the window each line is integrated over in a profile
+NMR_INTEGRATION_HALFWIDTH = 0.15
+#: a reference line (solvent) within this distance (ppm) of a peak removes the peak
+NMR_REFERENCE_TOL = 0.15
+#: relative integral error tolerated (log scale, one standard deviation)
+NMR_INTEGRAL_TOL = 0.15
+#: at most this many orbits on one observed line
+NMR_MAX_MERGE = 3
+#: costs (negative log-likelihood units) of the explanations
+NMR_MERGE_COST = 3.0
+NMR_IMPURITY_COST = 4.0
+NMR_MISSING_COST = 4.0
+#: verdict limits: impurity lines, and lost orbits (merged + missing) as a fraction
+NMR_IMPURITY_ALLOWANCE = 3
+NMR_LOST_ALLOWANCE = 0.3
+
+#: stick-spectrum estimate from POAV pyramidalisation: shift at the C60 angle and
+#: slope.  From memory: C60 resonates near 143 ppm (pyramidalisation 11.6 deg);
+#: in C70 the more pyramidal polar carbons lie ~20 ppm downfield of the flatter
+#: equatorial belt.  Order-of-magnitude figures for an ESTIMATE of line order only.
+ESTIMATE_PPM_AT_C60 = 143.2
+ESTIMATE_C60_ANGLE_DEG = 11.64
+ESTIMATE_PPM_PER_DEG = 5.0
+
+
+def predict_nmr(cage_or_fingerprint: Any):
+    """13C orbit prediction of a cage (re-exported from :mod:`cageprint.symmetry`)."""
+    from ..symmetry import predict_nmr as _predict
+
+    return _predict(cage_or_fingerprint)
+
+
+@dataclass(frozen=True)
+class NmrObservation:
+    """Cage lines found in a 13C spectrum.
+
+    Attributes
+    ----------
+    positions : tuple of float
+        Line positions (ppm), increasing.
+    integrals : tuple of float or None
+        Line areas (arbitrary units), or None when the input gave none.
+    snr : tuple of float
+        Signal-to-noise per line (``inf`` for peak lists).
+    excluded : tuple of dict
+        Lines left out: ``{"position": ppm, "reason": "..."}``.
+    region : (float, float)
+    thresholds : mapping
+        The settings used.
+    diagnostics : mapping
+        Noise estimate, source checksum and other figures.
+    """
+
+    positions: tuple[float, ...]
+    integrals: tuple[float, ...] | None
+    snr: tuple[float, ...] = ()
+    excluded: tuple[Mapping[str, Any], ...] = ()
+    region: tuple[float, float] = NMR_REGION
+    thresholds: Mapping[str, Any] = field(default_factory=dict)
+    diagnostics: Mapping[str, Any] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "positions", tuple(float(p) for p in self.positions))
+        if self.integrals is not None:
+            ints = tuple(float(a) for a in self.integrals)
+            if len(ints) != len(self.positions):
+                raise EvidenceError(f"integrals has {len(ints)} values for "
+                                    f"{len(self.positions)} lines; expected one per line")
+            object.__setattr__(self, "integrals", ints)
+        object.__setattr__(self, "snr", tuple(float(s) for s in self.snr))
+        object.__setattr__(self, "excluded",
+                           tuple(MappingProxyType(dict(e)) for e in self.excluded))
+        object.__setattr__(self, "region", (float(self.region[0]), float(self.region[1])))
+        object.__setattr__(self, "thresholds", MappingProxyType(dict(self.thresholds)))
+        object.__setattr__(self, "diagnostics", MappingProxyType(dict(self.diagnostics)))
+
+    @property
+    def n_lines(self) -> int:
+        return len(self.positions)
+
+    def to_dict(self) -> dict[str, Any]:
+        return _plain({
+            "positions": self.positions, "integrals": self.integrals, "snr": self.snr,
+            "excluded": self.excluded, "region": self.region,
+            "thresholds": self.thresholds, "diagnostics": self.diagnostics,
+        })
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> NmrObservation:
+        return cls(
+            positions=tuple(d["positions"]),
+            integrals=None if d.get("integrals") is None else tuple(d["integrals"]),
+            snr=tuple(math.inf if s is None else s for s in d.get("snr", ())),
+            excluded=tuple(d.get("excluded", ())), region=tuple(d.get("region", NMR_REGION)),
+            thresholds=d.get("thresholds", {}), diagnostics=d.get("diagnostics", {}),
+        )
+
+
+# --------------------------------------------------------------------- observe
+
+
+def _noise(y: np.ndarray) -> float:
+    """Robust noise level: scaled median absolute first difference."""
+    if y.size < 3:
+        return 0.0
+    d = np.diff(y)
+    return float(1.4826 * np.median(np.abs(d - np.median(d))) / math.sqrt(2.0))
+
+
+def _solvent_lines(solvent: str | None) -> tuple[float, ...]:
+    if not solvent:
+        return ()
+    try:
+        from ..spectra import references as refs  # issue 4's table of solvent lines
+    except ImportError:  # pragma: no cover - references not available
+        raise EvidenceError(f"solvent={solvent!r}: no solvent table is available; "
+                            "pass reference_lines=[ppm, ...] instead") from None
+    for name in ("solvent_lines", "solvent_13c_lines", "solvent_shifts"):
+        fn = getattr(refs, name, None)
+        if callable(fn):
+            return tuple(float(v) for v in fn(solvent))
+    table = getattr(refs, "SOLVENT_13C", None)
+    if isinstance(table, Mapping):
+        for k, v in table.items():
+            if str(k).lower() == solvent.lower():
+                return tuple(float(x) for x in (v if isinstance(v, Sequence) else [v]))
+        raise EvidenceError(f"solvent={solvent!r} is not in the solvent table; known: "
+                            f"{', '.join(sorted(map(str, table)))}")
+    raise EvidenceError(f"solvent={solvent!r}: no solvent table is available; "
+                        "pass reference_lines=[ppm, ...] instead")
+
+
+def observe_nmr(
+    spectrum: Any,
+    *,
+    region: tuple[float, float] = NMR_REGION,
+    solvent: str | None = None,
+    reference_lines: Sequence[float] = (),
+    reference_tol: float = NMR_REFERENCE_TOL,
+    snr: float = NMR_SNR,
+    prominence: float | None = None,
+    integration_halfwidth: float = NMR_INTEGRATION_HALFWIDTH,
+    use_intensities: bool = True,
+) -> NmrObservation:
+    """Find the cage lines of a 13C spectrum.
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        A profile (peaks are picked and integrated) or a peak list
+        (``kind="peaks"``: y is taken as the line's integral).
+    region : (low, high) ppm
+        Only lines inside count as cage lines.
+    solvent : str, optional
+        Solvent name; its 13C lines (from :mod:`cageprint.spectra.references`)
+        are excluded.
+    reference_lines : sequence of float
+        Further positions (ppm) to exclude (lock or reference compounds).
+    reference_tol : float
+        Exclusion distance in ppm.
+    snr : float
+        Minimum signal-to-noise of a profile peak.
+    prominence : float, optional
+        Minimum prominence (y units) of a profile peak; default ``snr * noise``.
+    integration_halfwidth : float
+        Profile lines are integrated over +- this many ppm.
+    use_intensities : bool
+        False records no integrals (pattern comparison by line count only).
+
+    Returns
+    -------
+    NmrObservation
+
+    Examples
+    --------
+    >>> from cageprint.spectra import Spectrum
+    >>> s = Spectrum([150.07, 147.52, 146.82, 144.77, 130.28, 77.16], [10, 10, 20, 20, 10, 50],
+    ...              technique="nmr", kind="peaks")
+    >>> obs = observe_nmr(s)
+    >>> obs.n_lines, obs.excluded[0]["reason"]
+    (5, 'outside the cage region 125-160 ppm')
+    """
+    if getattr(spectrum, "technique", "nmr") != "nmr":
+        raise SpectrumError(f"observe_nmr needs a 13C spectrum (technique 'nmr'); "
+                            f"got technique {spectrum.technique!r}")
+    lo, hi = float(min(region)), float(max(region))
+    if not hi > lo:
+        raise SpectrumError(f"region must span a range of ppm; got {region!r}")
+    refs = tuple(float(r) for r in reference_lines) + _solvent_lines(solvent)
+    x = np.asarray(spectrum.x, float)
+    y = np.asarray(spectrum.y, float)
+    diagnostics: dict[str, Any] = {"kind": spectrum.kind}
+    sha = getattr(spectrum, "meta", {}).get("sha256") if hasattr(spectrum, "meta") else None
+    if sha:
+        diagnostics["sha256"] = sha
+    if spectrum.kind == "peaks":
+        pos, area, s_n = x, y, np.full(x.size, math.inf)
+        keep = area > 0
+        excluded = [{"position": float(p), "reason": "zero or negative intensity"}
+                    for p in pos[~keep]]
+        pos, area, s_n = pos[keep], area[keep], s_n[keep]
+    else:
+        pos, area, s_n, noise = _pick_profile(x, y, snr, prominence, integration_halfwidth)
+        diagnostics["noise"] = noise
+        excluded = []
+    lines_p, lines_a, lines_s = [], [], []
+    for p, a, s in zip(pos, area, s_n, strict=False):
+        if not lo <= p <= hi:
+            excluded.append({"position": float(p),
+                             "reason": f"outside the cage region {lo:g}-{hi:g} ppm"})
+            continue
+        near = [r for r in refs if abs(r - p) <= reference_tol]
+        if near:
+            excluded.append({"position": float(p),
+                             "reason": f"reference/solvent line at {near[0]:g} ppm"})
+            continue
+        lines_p.append(float(p))
+        lines_a.append(float(a))
+        lines_s.append(float(s))
+    thresholds = {"region": [lo, hi], "solvent": solvent, "reference_lines": list(refs),
+                  "reference_tol": reference_tol, "snr": snr, "prominence": prominence,
+                  "integration_halfwidth": integration_halfwidth,
+                  "use_intensities": use_intensities}
+    return NmrObservation(
+        positions=tuple(lines_p), integrals=tuple(lines_a) if use_intensities else None,
+        snr=tuple(lines_s), excluded=tuple(sorted(excluded, key=lambda e: e["position"])),
+        region=(lo, hi), thresholds=thresholds, diagnostics=diagnostics,
+    )
+
+
+def _pick_profile(x, y, snr, prominence, halfwidth):
+    """Peaks of a profile with area over +-halfwidth (baseline: median of the trace)."""
+    from scipy.signal import find_peaks
+
+    base = float(np.median(y))
+    yy = y - base
+    noise = _noise(yy) or 1e-12
+    prom = snr * noise if prominence is None else float(prominence)
+    idx, _ = find_peaks(yy, prominence=prom, height=snr * noise)
+    pos, area, s_n = [], [], []
+    for i in idx:
+        m = (x >= x[i] - halfwidth) & (x <= x[i] + halfwidth)
+        if m.sum() >= 2:
+            a = float(np.trapezoid(yy[m], x[m])) if hasattr(np, "trapezoid") else float(
+                np.trapz(yy[m], x[m]))
+        else:
+            a = float(yy[i])
+        pos.append(float(x[i]))
+        area.append(max(a, 1e-300))
+        s_n.append(float(yy[i] / noise))
+    return np.array(pos), np.array(area), np.array(s_n), noise
+
+
+# --------------------------------------------------------------------- compare
+
+
+def _orbit_sizes(prediction: Any) -> tuple[int, ...]:
+    if isinstance(prediction, Candidate):
+        return prediction.nmr_sizes
+    nmr = getattr(prediction, "nmr", prediction)
+    sizes = getattr(nmr, "sizes", None)
+    if sizes is None and isinstance(prediction, (tuple, list)):
+        sizes = prediction
+    if sizes is None:
+        raise EvidenceError("compare_nmr: prediction must be an NMR prediction, a "
+                            f"fingerprint, a Candidate or orbit sizes; got {type(prediction)}")
+    sizes = tuple(sorted((int(s) for s in sizes), reverse=True))
+    if not sizes or min(sizes) < 1:
+        raise EvidenceError(f"compare_nmr: orbit sizes must be positive; got {sizes}")
+    return sizes
+
+
+def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_miss):
+    """Best explanation of the lines by the orbits, for one integral scale.
+
+    Returns (cost, per-line choice vectors or None for impurity, usage).
+    """
+    values = sorted(set(sizes), reverse=True)
+    counts = [sizes.count(v) for v in values]
+    dims = tuple(c + 1 for c in counts)
+    options = []
+    for k in itertools.product(*(range(min(c, max_merge) + 1) for c in counts)):
+        if 1 <= sum(k) <= max_merge:
+            options.append(k)
+    contents = np.array([sum(ki * v for ki, v in zip(k, values, strict=False)) for k in options], float)
+    n_orb = np.array([sum(k) for k in options])
+    inf = math.inf
+    dp = np.full(dims, inf)
+    dp[(0,) * len(dims)] = 0.0
+    choices = []
+    for ell in logs:
+        if ell is None:
+            line_cost = c_merge * (n_orb - 1)
+        else:
+            z = (ell + ln_scale - np.log(contents)) / tol
+            line_cost = 0.5 * z * z + c_merge * (n_orb - 1)
+        new = dp + c_imp
+        choice = np.full(dims, -1, dtype=np.int32)
+        for o, k in enumerate(options):
+            src = tuple(slice(0, d - ki) for d, ki in zip(dims, k, strict=False))
+            dst = tuple(slice(ki, d) for d, ki in zip(dims, k, strict=False))
+            cand = dp[src] + line_cost[o]
+            cur = new[dst]
+            better = cand < cur
+            if better.any():
+                cur[better] = cand[better]
+                choice[dst][better] = o
+        dp = new
+        choices.append(choice)
+    grids = np.indices(dims)
+    unused = sum(c - g for c, g in zip(counts, grids, strict=False))
+    total = dp + c_miss * unused
+    flat = int(np.argmin(total))
+    state = list(np.unravel_index(flat, dims))
+    cost = float(total.flat[flat])
+    picks: list[tuple[int, ...] | None] = [None] * len(logs)
+    for j in range(len(logs) - 1, -1, -1):
+        o = int(choices[j][tuple(state)])
+        if o >= 0:
+            k = options[o]
+            picks[j] = k
+            state = [s - ki for s, ki in zip(state, k, strict=False)]
+    return cost, picks, values, counts
+
+
+def compare_nmr(
+    prediction: Any,
+    observation: NmrObservation,
+    *,
+    integral_tol: float = NMR_INTEGRAL_TOL,
+    max_merge: int = NMR_MAX_MERGE,
+    merge_cost: float = NMR_MERGE_COST,
+    impurity_cost: float = NMR_IMPURITY_COST,
+    missing_cost: float = NMR_MISSING_COST,
+    impurity_allowance: int = NMR_IMPURITY_ALLOWANCE,
+    lost_allowance: float = NMR_LOST_ALLOWANCE,
+) -> TechniqueVerdict:
+    """Score a candidate's 13C orbit pattern against the observed lines.
+
+    Parameters
+    ----------
+    prediction : NmrPrediction, Fingerprint, Candidate or sequence of int
+        Anything carrying the orbit sizes.
+    observation : NmrObservation
+    integral_tol : float
+        Relative integral error of one standard deviation (log scale).
+    max_merge : int
+        Most orbits one observed line may carry.
+    merge_cost, impurity_cost, missing_cost : float
+        Cost of each extra orbit on a line, each unexplained line, each unseen orbit.
+    impurity_allowance : int
+        More impurity lines than this rule the candidate out.
+    lost_allowance : float
+        More than this fraction of orbits lost (merged or missing; at least 2)
+        rules the candidate out.
+
+    Returns
+    -------
+    TechniqueVerdict
+        ``score`` is minus the cost; ``details`` holds the assignment.
+
+    Examples
+    --------
+    >>> obs = NmrObservation((130.3, 144.8, 146.8, 147.5, 150.1), (10.5, 19.0, 21.0, 9.5, 10.2))
+    >>> v = compare_nmr((10, 10, 10, 20, 20), obs)
+    >>> v.verdict, round(v.score, 2) > -1
+    ('consistent', True)
+    >>> compare_nmr((60,), obs).verdict
+    'ruled out'
+    """
+    sizes = _orbit_sizes(prediction)
+    n_obs = observation.n_lines
+    len(sizes)
+    pattern = Candidate("C", sum(sizes), 0, "", sizes).pattern
+    if n_obs == 0:
+        return TechniqueVerdict("nmr", 0.0, "no data",
+                                ("no cage lines found in the 13C region.",),
+                                {"pattern": pattern})
+    if integral_tol <= 0 or max_merge < 1:
+        raise EvidenceError(f"integral_tol must be > 0 and max_merge >= 1; got "
+                            f"{integral_tol}, {max_merge}")
+    ints = observation.integrals
+    use = ints is not None and all(a > 0 for a in ints)
+    logs = [math.log(a) for a in ints] if use else [None] * n_obs
+    n_carbons = sum(sizes)
+    args = (integral_tol, max_merge, merge_cost, impurity_cost, missing_cost)
+    best = None
+    if use:
+        counts = {v: sizes.count(v) for v in set(sizes)}
+        v_mode = max(counts, key=lambda v: (counts[v], v))
+        starts = [math.log(n_carbons / sum(ints)),
+                  math.log(v_mode) - float(np.median(logs))]
+        for ln_s in starts:
+            for _ in range(5):
+                res = _assign(sizes, logs, ln_s, *args)
+                if best is None or res[0] < best[0] - 1e-12:
+                    best = res + (ln_s,)
+                cost, picks, values, _c = res
+                diffs = [math.log(sum(ki * v for ki, v in zip(k, values, strict=False))) - ell
+                         for k, ell in zip(picks, logs, strict=False) if k is not None]
+                if not diffs:
+                    break
+                new_s = float(np.mean(diffs))
+                if abs(new_s - ln_s) < 1e-9:
+                    break
+                ln_s = new_s
+    else:
+        best = _assign(sizes, logs, 0.0, *args) + (0.0,)
+    cost, picks, values, counts, ln_s = best
+    return _verdict(observation, sizes, pattern, cost, picks, values, counts, ln_s, use,
+                    integral_tol, impurity_allowance, lost_allowance)
+
+
+_WORD = {1: "one", 2: "two", 3: "three", 4: "four", 5: "five", 6: "six", 10: "ten",
+         12: "twelve"}
+
+
+def _verdict(obs, sizes, pattern, cost, picks, values, counts, ln_s, use, tol,
+             impurity_allowance, lost_allowance):
+    n_obs, n_pred = obs.n_lines, len(sizes)
+    impurities = [obs.positions[j] for j, k in enumerate(picks) if k is None]
+    used = [sum(k[i] for k in picks if k is not None) for i in range(len(values))]
+    missing = sum(c - u for c, u in zip(counts, used, strict=False))
+    merged_lines = [(obs.positions[j], k) for j, k in enumerate(picks)
+                    if k is not None and sum(k) > 1]
+    extra = sum(sum(k) - 1 for _, k in merged_lines)
+    lost = missing + extra
+    errs = []
+    if use:
+        for j, k in enumerate(picks):
+            if k is not None:
+                c = sum(ki * v for ki, v in zip(k, values, strict=False))
+                errs.append(math.log(obs.integrals[j]) + ln_s - math.log(c))
+    rms = float(np.sqrt(np.mean(np.square(errs)))) if errs else 0.0
+
+    reasons = [f"{n_obs} line{'s' if n_obs != 1 else ''} observed, {n_pred} predicted "
+               f"({pattern})."]
+    if use and len(values) > 1:
+        top = values[0]
+        for i, v in enumerate(values):
+            single = sum(1 for k in picks if k is not None and sum(k) == 1 and k[i] == 1)
+            if single == 0:
+                continue
+            frac = v / top
+            rel = "full-intensity" if v == top else (
+                "half-intensity" if abs(frac - 0.5) < 1e-9 else f"{v}/{top}-intensity")
+            word = _WORD.get(v, str(v))
+            reasons.append(f"{single} {rel} line{'s' if single != 1 else ''} match "
+                           f"{single} of the {counts[i]} {word}-carbon orbits.")
+    for p, k in merged_lines:
+        c = sum(ki * v for ki, v in zip(k, values, strict=False))
+        reasons.append(f"the line at {p:.2f} ppm carries {sum(k)} orbits ({c} carbons; "
+                       "accidental coincidence assumed).")
+    if impurities:
+        shown = ", ".join(f"{p:.2f}" for p in impurities[:5])
+        reasons.append(f"{len(impurities)} line{'s' if len(impurities) != 1 else ''} "
+                       f"unexplained (impurity assumed): {shown} ppm.")
+    if missing:
+        reasons.append(f"{missing} orbit{'s' if missing != 1 else ''} not seen "
+                       "(weak or lost in noise assumed).")
+    if use and errs:
+        reasons.append(f"integrals agree within {100 * (math.exp(rms) - 1):.0f} % rms "
+                       f"(tolerance {100 * tol:.0f} %).")
+    lost_limit = max(2, math.floor(lost_allowance * n_pred))
+    if len(impurities) > impurity_allowance or lost > lost_limit:
+        verdict = "ruled out"
+        why = []
+        if len(impurities) > impurity_allowance:
+            why.append(f"{len(impurities)} unexplained lines exceed the allowance of "
+                       f"{impurity_allowance}")
+        if lost > lost_limit:
+            why.append(f"{lost} orbits merged or missing exceed the allowance of {lost_limit}")
+        reasons.insert(1, "ruled out: " + "; ".join(why) + ".")
+    elif len(impurities) + lost <= 1 and rms <= 2 * tol:
+        verdict = "consistent"
+    elif len(impurities) + lost <= 3 and rms <= 3 * tol:
+        verdict = "possible"
+    else:
+        verdict = "unlikely"
+    details = {
+        "pattern": pattern, "n_observed": n_obs, "n_predicted": n_pred, "cost": cost,
+        "impurity_lines": impurities, "missing_orbits": missing, "merged_orbits": extra,
+        "merged_lines": [[p, int(sum(k))] for p, k in merged_lines],
+        "rms_log_integral_error": rms, "carbons_per_unit_area": math.exp(ln_s) if use else None,
+        "assignment": [None if k is None else int(sum(ki * v for ki, v in zip(k, values, strict=False)))
+                       for k in picks],
+    }
+    return TechniqueVerdict("nmr", -cost, verdict, tuple(reasons), details)
+
+
+# --------------------------------------------------------------- shift estimate
+
+
+@dataclass(frozen=True)
+class StickSpectrum:
+    """An estimated stick spectrum: one stick per orbit, height = orbit size.
+
+    The positions are an ESTIMATE from cage curvature (POAV pyramidalisation
+    of the symmetric model geometry), good for the order of lines at best.
+    """
+
+    positions: tuple[float, ...]
+    heights: tuple[int, ...]
+    angles_deg: tuple[float, ...]
+    label: str = "estimate from POAV pyramidalisation (line order only)"
+
+    def to_dict(self) -> dict[str, Any]:
+        return _plain({"positions": self.positions, "heights": self.heights,
+                       "angles_deg": self.angles_deg, "label": self.label})
+
+
+def pyramidalization_angles(coords: Any, neighbours: Any) -> np.ndarray:
+    """POAV1 pyramidalisation angle (degrees) of each atom.
+
+    Parameters
+    ----------
+    coords : (n, 3) array
+    neighbours : (n, 3) int array
+
+    Notes
+    -----
+    The pi-orbital axis vector makes equal angles theta with the three sigma
+    bonds; the pyramidalisation angle is theta - 90 degrees (POAV1, Haddon,
+    J. Am. Chem. Soc. 1986; from memory).  A planar sp2 carbon gives 0.
+
+    Examples
+    --------
+    >>> xyz = [[0, 0, 0], [1, 0, 0], [-0.5, 0.866, 0], [-0.5, -0.866, 0]]
+    >>> nb = [[1, 2, 3], [0, 2, 3], [0, 1, 3], [0, 1, 2]]
+    >>> float(round(pyramidalization_angles(xyz, nb)[0], 6))
+    0.0
+    """
+    x = np.asarray(coords, float)
+    nb = np.asarray(neighbours, int)
+    u = x[nb] - x[:, None, :]
+    u /= np.linalg.norm(u, axis=2, keepdims=True)
+    v = np.cross(u[:, 1] - u[:, 0], u[:, 2] - u[:, 0])
+    v /= np.linalg.norm(v, axis=1, keepdims=True)
+    # orient away from the bonds
+    sign = np.sign(-np.einsum("ij,ij->i", v, u.sum(axis=1)))
+    sign[sign == 0] = 1.0
+    v *= sign[:, None]
+    cos_t = np.clip(np.einsum("ij,ij->i", v, u[:, 0]), -1.0, 1.0)
+    return np.degrees(np.arccos(cos_t)) - 90.0
+
+
+def estimated_stick_spectrum(cage: Any, prediction: Any = None, *,
+                             geometry: Any = None) -> StickSpectrum:
+    """Estimated 13C stick spectrum of a candidate (an ESTIMATE of line order).
+
+    Parameters
+    ----------
+    cage : Cage
+        Needs ``.neighbours``; the geometry defaults to
+        ``cageprint.symmetry.symmetric_geometry(cage)``.
+    prediction : NmrPrediction or Fingerprint, optional
+        Needs ``.orbits`` (atom tuples); defaults to ``predict_nmr(cage)``.
+    geometry : (n, 3) array, optional
+
+    Notes
+    -----
+    More pyramidal carbons lie further downfield (the usual trend); the
+    shift is ``ESTIMATE_PPM_AT_C60 + ESTIMATE_PPM_PER_DEG * (angle -
+    ESTIMATE_C60_ANGLE_DEG)``.  The geometry is a symmetric model, not an
+    optimised structure, so only the order of the sticks means anything.
+    """
+    if prediction is None:
+        prediction = predict_nmr(cage)
+    nmr = getattr(prediction, "nmr", prediction)
+    orbits = getattr(nmr, "orbits", None)
+    if not orbits:
+        raise EvidenceError("estimated_stick_spectrum: the prediction carries no orbits")
+    if geometry is None:
+        from ..symmetry import symmetric_geometry
+
+        geometry = symmetric_geometry(cage)
+    geometry = getattr(geometry, "coords", geometry)
+    ang = pyramidalization_angles(geometry, cage.neighbours)
+    per_orbit = [float(np.mean(ang[list(orb)])) for orb in orbits]
+    ppm = [ESTIMATE_PPM_AT_C60 + ESTIMATE_PPM_PER_DEG * (a - ESTIMATE_C60_ANGLE_DEG)
+           for a in per_orbit]
+    order = np.argsort(ppm)[::-1]
+    return StickSpectrum(
+        positions=tuple(float(ppm[i]) for i in order),
+        heights=tuple(len(orbits[i]) for i in order),
+        angles_deg=tuple(float(per_orbit[i]) for i in order),
+    )
