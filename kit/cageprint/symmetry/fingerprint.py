@@ -1,0 +1,728 @@
+"""One predicted fingerprint per cage: point group, 13C orbits, modes, Hückel levels.
+
+:func:`fingerprint` computes everything from the cage graph alone: the
+automorphisms, the exact symmetry matrices of a faithful topological
+embedding, the point group, the atom and bond orbits, Γ3N and the IR/Raman
+counts, and the Hückel levels labelled with irreps.  No geometry relaxation is
+needed; :func:`symmetric_geometry` makes the relaxed model geometry on demand
+(3D views, XYZ export, pyramidalisation estimates).  Results are cached per
+cage graph (the neighbour table, so a relabelled cage gets its own atom
+indices) and charge.
+"""
+
+from __future__ import annotations
+
+from collections import OrderedDict
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from ..errors import SymmetryError
+from .automorphisms import AutomorphismGroup, automorphisms, check_rotation_system
+from .geometry import (
+    GEOMETRY_TOL,
+    SymmetricGeometry,
+    TopologicalEmbedding,
+    adjacency_spectrum,
+    build_symmetric_geometry,
+    symmetry_operations,
+    topological_embedding,
+)
+from .huckel import (
+    fill_levels,
+    frontier,
+    level_characters,
+    levels_from_eigenvalues,
+    shell_type,
+)
+from .orbits import atom_orbits, bond_list, bond_orbits, inadequate_links, orbit_pattern
+
+__all__ = [
+    "NmrPrediction",
+    "VibrationalPrediction",
+    "ElectronicPrediction",
+    "Fingerprint",
+    "CageSymmetry",
+    "cage_symmetry",
+    "fingerprint",
+    "predict_nmr",
+    "predict_vibrational",
+    "predict_electronic",
+    "symmetric_geometry",
+    "point_group_from_geometry",
+    "clear_caches",
+    "CACHE_SIZE",
+]
+
+#: how many cages (graph analyses) and fingerprints the caches keep
+CACHE_SIZE = 2048
+#: a symmetry-operation tolerance for identifying the point group of exact matrices
+OPS_TOL = 1e-6
+
+ENDOHEDRAL_NOTE = (
+    "the cage's own point group is used; an inner cluster (endohedral species) or "
+    "counter-ions are assumed to average out by rotation"
+)
+HUCKEL_NOTE = "simple Hückel: α = 0, energies λ in units of β (β < 0), λ > 0 bonding"
+
+
+# ------------------------------------------------------------------ results
+
+
+def _tuples(x):
+    if isinstance(x, (list, tuple)):
+        return tuple(_tuples(v) for v in x)
+    return x
+
+
+@dataclass(frozen=True)
+class NmrPrediction:
+    """Predicted 13C NMR pattern: one line per carbon orbit.
+
+    Attributes
+    ----------
+    point_group : str
+    orbits : tuple of tuple of int
+        Atoms of each line; largest orbit first, ties by smallest atom index.
+    sizes : tuple of int
+        Orbit sizes (relative intensities), same order as ``orbits``.
+    n_lines : int
+    pattern : str
+        Orbit-size groups, largest first, e.g. ``"2x20+3x10"`` for C70.
+    bond_orbits : tuple of tuple of (int, int)
+        Symmetry-distinct bonds, largest orbit first.
+    inadequate : tuple of (int, int, int)
+        ``(line_a, line_b, n_bonds)``: 2D INADEQUATE connectivity between
+        lines (indices into ``orbits``) for 13C-enriched samples.
+    """
+
+    point_group: str
+    orbits: tuple[tuple[int, ...], ...]
+    sizes: tuple[int, ...]
+    n_lines: int
+    pattern: str
+    bond_orbits: tuple[tuple[tuple[int, int], ...], ...] = field(repr=False)
+    inadequate: tuple[tuple[int, int, int], ...] = field(repr=False)
+
+    def to_dict(self) -> dict:
+        """Plain data (lists) for saving."""
+        return {
+            "point_group": self.point_group,
+            "orbits": [list(o) for o in self.orbits],
+            "sizes": list(self.sizes),
+            "n_lines": self.n_lines,
+            "pattern": self.pattern,
+            "bond_orbits": [[list(b) for b in o] for o in self.bond_orbits],
+            "inadequate": [list(t) for t in self.inadequate],
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict) -> NmrPrediction:
+        """Inverse of :meth:`to_dict`."""
+        return cls(
+            point_group=str(d["point_group"]),
+            orbits=_tuples(d["orbits"]),
+            sizes=_tuples(d["sizes"]),
+            n_lines=int(d["n_lines"]),
+            pattern=str(d["pattern"]),
+            bond_orbits=_tuples(d["bond_orbits"]),
+            inadequate=_tuples(d["inadequate"]),
+        )
+
+
+@dataclass(frozen=True)
+class VibrationalPrediction:
+    """Symmetry species of the normal modes and their IR/Raman activity.
+
+    Attributes
+    ----------
+    point_group : str
+    gamma_3n, gamma_vib : dict of str to int
+        Multiplicity of each irrep (table order) in Γ3N and in Γvib.
+    n_distinct : int
+        Number of distinct fundamental frequencies (sum of Γvib multiplicities).
+    ir_irreps, raman_irreps, silent_irreps : tuple of str
+        Irreps of Γvib that are IR active (x, y, z), Raman active (quadratic
+        functions), or neither.
+    ir_count, raman_count, silent_count : int
+        Number of distinct frequencies in each set.
+    """
+
+    point_group: str
+    gamma_3n: dict[str, int] = field(hash=False)
+    gamma_vib: dict[str, int] = field(hash=False)
+    n_distinct: int
+    ir_irreps: tuple[str, ...]
+    raman_irreps: tuple[str, ...]
+    silent_irreps: tuple[str, ...]
+    ir_count: int
+    raman_count: int
+    silent_count: int
+
+    @property
+    def gamma_vib_text(self) -> str:
+        """Γvib written as ``2Ag+3T1g+...`` in table order."""
+        return _irrep_sum(self.gamma_vib)
+
+    def to_dict(self) -> dict:
+        """Plain data for saving."""
+        d = dict(self.__dict__)
+        d["gamma_3n"] = dict(self.gamma_3n)
+        d["gamma_vib"] = dict(self.gamma_vib)
+        for k in ("ir_irreps", "raman_irreps", "silent_irreps"):
+            d[k] = list(d[k])
+        return d
+
+    @classmethod
+    def from_dict(cls, d: dict) -> VibrationalPrediction:
+        """Inverse of :meth:`to_dict`."""
+        kw = dict(d)
+        kw["gamma_3n"] = {str(k): int(v) for k, v in d["gamma_3n"].items()}
+        kw["gamma_vib"] = {str(k): int(v) for k, v in d["gamma_vib"].items()}
+        for k in ("ir_irreps", "raman_irreps", "silent_irreps"):
+            kw[k] = tuple(d[k])
+        return cls(**kw)
+
+
+@dataclass(frozen=True)
+class ElectronicPrediction:
+    """Hückel π levels, filling and symmetry-allowed frontier transitions.
+
+    Attributes
+    ----------
+    point_group : str
+    charge : int
+        Charge of the cage; ``n - charge`` π electrons.
+    n_electrons : int
+    levels : tuple of (float, int, str, int)
+        ``(energy_beta, degeneracy, irrep, occupancy)``, most bonding first;
+        ``irrep`` is what the reduction gives (e.g. ``"Hu"``, or
+        ``"Gg+Hg"`` for an accidental degeneracy).
+    homo, lumo : float or None
+        λ of the HOMO and LUMO levels (equal for a partly filled level).
+    homo_index, lumo_index : int or None
+        Their rows in ``levels``.
+    gap_beta : float
+        ``λ_HOMO - λ_LUMO`` in units of |β| (0 for an open shell).
+    shell : str
+        ``"closed"`` or ``"open"``.
+    shell_detail : str
+        Finer class (see :mod:`cageprint.symmetry.huckel`).
+    transitions : tuple of (str, str, float, bool)
+        Frontier excitations HOMO-1/HOMO to LUMO/LUMO+1, per irrep pair:
+        ``(from_irrep, to_irrep, delta_beta, dipole_allowed)``.
+    allowed_transitions : tuple of (str, str, float)
+        The dipole-allowed ones (direct product contains an irrep of x, y, z).
+    notes : tuple of str
+    """
+
+    point_group: str
+    charge: int
+    n_electrons: int
+    levels: tuple[tuple[float, int, str, int], ...] = field(repr=False)
+    homo: float | None
+    lumo: float | None
+    homo_index: int | None
+    lumo_index: int | None
+    gap_beta: float
+    shell: str
+    shell_detail: str
+    transitions: tuple[tuple[str, str, float, bool], ...] = field(repr=False)
+    allowed_transitions: tuple[tuple[str, str, float], ...] = field(repr=False)
+    notes: tuple[str, ...] = field(repr=False)
+
+    @property
+    def homo_irrep(self) -> str | None:
+        return None if self.homo_index is None else self.levels[self.homo_index][2]
+
+    @property
+    def lumo_irrep(self) -> str | None:
+        return None if self.lumo_index is None else self.levels[self.lumo_index][2]
+
+    def to_dict(self) -> dict:
+        """Plain data for saving."""
+        d = dict(self.__dict__)
+        d["levels"] = [list(t) for t in self.levels]
+        d["transitions"] = [list(t) for t in self.transitions]
+        d["allowed_transitions"] = [list(t) for t in self.allowed_transitions]
+        d["notes"] = list(self.notes)
+        return d
+
+    @classmethod
+    def from_dict(cls, d: dict) -> ElectronicPrediction:
+        """Inverse of :meth:`to_dict`."""
+        kw = dict(d)
+        kw["levels"] = tuple((float(a), int(b), str(c), int(e)) for a, b, c, e in d["levels"])
+        kw["transitions"] = tuple(
+            (str(a), str(b), float(c), bool(e)) for a, b, c, e in d["transitions"]
+        )
+        kw["allowed_transitions"] = tuple(
+            (str(a), str(b), float(c)) for a, b, c in d["allowed_transitions"]
+        )
+        kw["notes"] = tuple(d["notes"])
+        return cls(**kw)
+
+
+@dataclass(frozen=True)
+class Fingerprint:
+    """Everything predicted for one cage (and one charge).
+
+    Attributes
+    ----------
+    n : int
+        Number of carbons.
+    spiral : tuple of int or None
+        The cage's face spiral (one-based pentagon positions) when known.
+    charge : int
+    point_group : str
+        Schoenflies symbol.
+    group_order : int
+        Number of automorphisms = order of the point group.
+    n_proper : int
+        Number of proper rotations.
+    nmr, vib, elec :
+        :class:`NmrPrediction`, :class:`VibrationalPrediction`,
+        :class:`ElectronicPrediction`.
+    """
+
+    n: int
+    spiral: tuple[int, ...] | None
+    charge: int
+    point_group: str
+    group_order: int
+    n_proper: int
+    nmr: NmrPrediction = field(repr=False)
+    vib: VibrationalPrediction = field(repr=False)
+    elec: ElectronicPrediction = field(repr=False)
+
+    @property
+    def formula(self) -> str:
+        return f"C{self.n}"
+
+    def columns(self) -> dict[str, Any]:
+        """The summary columns shown by ``cageprint isomers``."""
+        return {
+            "point_group": self.point_group,
+            "nmr_lines": self.nmr.n_lines,
+            "nmr_pattern": self.nmr.pattern,
+            "ir_active": self.vib.ir_count,
+            "raman_active": self.vib.raman_count,
+            "gap_beta": round(self.elec.gap_beta, 4),
+        }
+
+    def to_dict(self) -> dict:
+        """Plain data (JSON-ready) for saving."""
+        return {
+            "n": self.n,
+            "spiral": None if self.spiral is None else list(self.spiral),
+            "charge": self.charge,
+            "point_group": self.point_group,
+            "group_order": self.group_order,
+            "n_proper": self.n_proper,
+            "nmr": self.nmr.to_dict(),
+            "vib": self.vib.to_dict(),
+            "elec": self.elec.to_dict(),
+        }
+
+    @classmethod
+    def from_dict(cls, d: dict) -> Fingerprint:
+        """Inverse of :meth:`to_dict`."""
+        return cls(
+            n=int(d["n"]),
+            spiral=None if d.get("spiral") is None else tuple(int(v) for v in d["spiral"]),
+            charge=int(d["charge"]),
+            point_group=str(d["point_group"]),
+            group_order=int(d["group_order"]),
+            n_proper=int(d["n_proper"]),
+            nmr=NmrPrediction.from_dict(d["nmr"]),
+            vib=VibrationalPrediction.from_dict(d["vib"]),
+            elec=ElectronicPrediction.from_dict(d["elec"]),
+        )
+
+
+def _irrep_sum(counts: dict[str, int]) -> str:
+    return "+".join(f"{c}{k}" if c != 1 else k for k, c in counts.items() if c)
+
+
+# ------------------------------------------------------------ graph analysis
+
+
+@dataclass(frozen=True, eq=False)
+class CageSymmetry:
+    """The symmetry analysis of one cage graph (shared by all predictions).
+
+    Attributes
+    ----------
+    neighbours : numpy.ndarray
+    group : AutomorphismGroup
+    spectrum : tuple of numpy.ndarray
+        Adjacency eigenvalues (descending) and eigenvectors.
+    embedding : TopologicalEmbedding
+        Exact symmetry matrices ``embedding.ops``.
+    match : PointGroupMatch
+        ``.symbol``, ``.table``, ``.op_class`` (one class index per automorphism).
+    """
+
+    neighbours: np.ndarray
+    group: AutomorphismGroup
+    spectrum: tuple[np.ndarray, np.ndarray]
+    embedding: TopologicalEmbedding
+    match: Any
+
+    @property
+    def point_group(self) -> str:
+        return self.match.symbol
+
+    @property
+    def table(self):
+        return self.match.table
+
+
+class _LRU:
+    def __init__(self, size: int):
+        self.size = size
+        self.data: OrderedDict = OrderedDict()
+
+    def get(self, key):
+        if key in self.data:
+            self.data.move_to_end(key)
+            return self.data[key]
+        return None
+
+    def put(self, key, value):
+        self.data[key] = value
+        self.data.move_to_end(key)
+        while len(self.data) > self.size:
+            self.data.popitem(last=False)
+
+
+_SYM_CACHE = _LRU(CACHE_SIZE)
+_FP_CACHE = _LRU(CACHE_SIZE)
+_GEO_CACHE = _LRU(64)
+
+
+def clear_caches() -> None:
+    """Empty the symmetry, fingerprint and geometry caches."""
+    for c in (_SYM_CACHE, _FP_CACHE, _GEO_CACHE):
+        c.data.clear()
+
+
+def _neighbours_of(cage) -> np.ndarray:
+    nb = getattr(cage, "neighbours", cage)
+    return np.ascontiguousarray(nb, dtype=np.int64)
+
+
+def _key(nb: np.ndarray) -> bytes:
+    return nb.shape[0].to_bytes(4, "little") + nb.tobytes()
+
+
+def cage_symmetry(cage) -> CageSymmetry:
+    """Automorphisms, exact symmetry matrices and point group of a cage (cached).
+
+    Parameters
+    ----------
+    cage : Cage or array_like
+        A cage (its ``neighbours``) or an ``(n, 3)`` neighbour table in one
+        rotational sense.
+
+    Raises
+    ------
+    CageError
+        If the neighbour table is not a cage graph with a rotation system.
+    SymmetryError
+        If the group found does not match a point group of the same order.
+
+    Examples
+    --------
+    >>> cs = cage_symmetry([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]])
+    >>> cs.point_group, cs.group.order
+    ('Td', 24)
+    """
+    from .pointgroup import identify_point_group
+
+    nb = _neighbours_of(cage)
+    key = _key(nb)
+    hit = _SYM_CACHE.get(key)
+    if hit is not None:
+        return hit
+    nb = check_rotation_system(nb)
+    group = automorphisms(nb, validate=False)
+    spectrum = adjacency_spectrum(nb)
+    emb = topological_embedding(nb, group, spectrum)
+    n_fixed = (group.perms == np.arange(nb.shape[0])[None, :]).sum(axis=1)
+    match = identify_point_group(emb.ops, tol=OPS_TOL, weights=n_fixed)
+    if match.table.order != group.order:
+        raise SymmetryError(
+            f"cage graph: {group.order} automorphisms but the operations were identified as "
+            f"{match.symbol} of order {match.table.order}; expected equal orders "
+            f"(tol={OPS_TOL:g}, OPS_TOL)"
+        )
+    out = CageSymmetry(nb, group, spectrum, emb, match)
+    _SYM_CACHE.put(key, out)
+    return out
+
+
+# ------------------------------------------------------------------ predictions
+
+
+def _nmr(cs: CageSymmetry) -> NmrPrediction:
+    orbits = atom_orbits(cs.group.perms)
+    bo = bond_orbits(cs.group.perms, bond_list(cs.neighbours))
+    sizes = tuple(len(o) for o in orbits)
+    return NmrPrediction(
+        point_group=cs.point_group,
+        orbits=orbits,
+        sizes=sizes,
+        n_lines=len(orbits),
+        pattern=orbit_pattern(sizes),
+        bond_orbits=bo,
+        inadequate=inadequate_links(orbits, bo),
+    )
+
+
+def _vib(cs: CageSymmetry) -> VibrationalPrediction:
+    from .reduce import gamma_3n, vibrational_analysis
+
+    table = cs.table
+    n_fixed = (cs.group.perms == np.arange(cs.group.perms.shape[1])[None, :]).sum(axis=1)
+    g3n = gamma_3n(table, cs.match.op_class, cs.embedding.ops, n_fixed)
+    va = vibrational_analysis(table, g3n)
+    return _vib_from(cs.point_group, table, g3n, va)
+
+
+def _as_counts(table, x) -> dict[str, int]:
+    if isinstance(x, dict):
+        return {r: int(x.get(r, 0)) for r in table.irreps if int(x.get(r, 0))}
+    from .reduce import reduce_representation
+
+    return _as_counts(table, reduce_representation(table, np.asarray(x, float)))
+
+
+def _vib_from(symbol, table, g3n, va) -> VibrationalPrediction:
+    get = va.get if isinstance(va, dict) else (lambda k, d=None: getattr(va, k, d))
+    gamma_vib = _as_counts(table, get("gamma_vib"))
+    ir = tuple(r for r in table.irreps if r in gamma_vib and r in table.linear)
+    raman = tuple(r for r in table.irreps if r in gamma_vib and r in table.quadratic)
+    silent = tuple(r for r in table.irreps if r in gamma_vib and r not in ir and r not in raman)
+    return VibrationalPrediction(
+        point_group=symbol,
+        gamma_3n=_as_counts(table, g3n),
+        gamma_vib=gamma_vib,
+        n_distinct=int(sum(gamma_vib.values())),
+        ir_irreps=ir,
+        raman_irreps=raman,
+        silent_irreps=silent,
+        ir_count=int(sum(gamma_vib[r] for r in ir)),
+        raman_count=int(sum(gamma_vib[r] for r in raman)),
+        silent_count=int(sum(gamma_vib[r] for r in silent)),
+    )
+
+
+def _level_labels(cs: CageSymmetry, levels) -> list[str]:
+    from .reduce import class_characters, reduce_representation
+
+    lam, vec = cs.spectrum
+    chi = level_characters(vec, levels, cs.group.perms)  # (g, L)
+    labels = []
+    for k in range(len(levels)):
+        chi_cls = class_characters(cs.table, cs.match.op_class, chi[:, k], what="level character")
+        counts = _as_counts(cs.table, reduce_representation(cs.table, chi_cls))
+        labels.append(_irrep_sum(counts) or "?")
+    return labels
+
+
+def _elec(cs: CageSymmetry, charge: int) -> ElectronicPrediction:
+    from .reduce import transition_allowed
+
+    n = cs.neighbours.shape[0]
+    lam, _ = cs.spectrum
+    levels = levels_from_eigenvalues(lam)
+    degs = [b - a for _, a, b in levels]
+    energies = [e for e, _, _ in levels]
+    labels = _level_labels(cs, levels)
+    n_el = n - int(charge)
+    occ = fill_levels(degs, n_el)
+    homo, lumo = frontier(degs, occ)
+    shell, detail = shell_type(energies, degs, occ)
+    gap = 0.0
+    if homo is not None and lumo is not None and homo != lumo:
+        gap = max(0.0, energies[homo] - energies[lumo])
+    trans: list[tuple[str, str, float, bool]] = []
+    if homo is not None and lumo is not None:
+        occ_levels = [k for k in (homo - 1, homo) if k >= 0 and occ[k] > 0]
+        vac_levels = [k for k in (lumo, lumo + 1) if k < len(levels) and occ[k] < 2 * degs[k]]
+        for a in occ_levels:
+            for b in vac_levels:
+                if a == b:
+                    continue
+                for ra in _components(labels[a]):
+                    for rb in _components(labels[b]):
+                        ok = bool(transition_allowed(cs.table, ra, rb))
+                        trans.append((ra, rb, round(energies[a] - energies[b], 10), ok))
+    notes = [HUCKEL_NOTE]
+    if charge:
+        notes.append(f"charge {charge:+d}: {n_el} π electrons; {ENDOHEDRAL_NOTE}")
+    return ElectronicPrediction(
+        point_group=cs.point_group,
+        charge=int(charge),
+        n_electrons=n_el,
+        levels=tuple(
+            (float(e), int(d), lab, int(o))
+            for e, d, lab, o in zip(energies, degs, labels, occ, strict=True)
+        ),
+        homo=None if homo is None else float(energies[homo]),
+        lumo=None if lumo is None else float(energies[lumo]),
+        homo_index=homo,
+        lumo_index=lumo,
+        gap_beta=float(gap),
+        shell=shell,
+        shell_detail=detail,
+        transitions=tuple(trans),
+        allowed_transitions=tuple((a, b, d) for a, b, d, ok in trans if ok),
+        notes=tuple(notes),
+    )
+
+
+def _components(label: str) -> list[str]:
+    out = []
+    for part in label.split("+"):
+        k = 0
+        while k < len(part) and part[k].isdigit():
+            k += 1
+        out.append(part[k:])
+    return out
+
+
+def fingerprint(cage, charge: int = 0) -> Fingerprint:
+    """The predicted fingerprint of a cage (cached per cage graph and charge).
+
+    Parameters
+    ----------
+    cage : Cage or array_like
+        A cage or its ``(n, 3)`` neighbour table in one rotational sense.
+    charge : int, default 0
+        Charge of the cage for the Hückel filling (``-6``: six electrons
+        taken from an inner cluster).
+
+    Returns
+    -------
+    Fingerprint
+
+    Examples
+    --------
+    >>> fp = fingerprint([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]])
+    >>> fp.point_group, fp.nmr.pattern
+    ('Td', '1x4')
+    """
+    nb = _neighbours_of(cage)
+    key = (_key(nb), int(charge))
+    hit = _FP_CACHE.get(key)
+    if hit is not None:
+        return hit
+    cs = cage_symmetry(nb)
+    spiral = getattr(cage, "spiral", None)
+    fp = Fingerprint(
+        n=int(nb.shape[0]),
+        spiral=None if spiral is None else tuple(int(v) for v in spiral),
+        charge=int(charge),
+        point_group=cs.point_group,
+        group_order=cs.group.order,
+        n_proper=cs.group.n_proper,
+        nmr=_cached_part(cs, "nmr", _nmr),
+        vib=_cached_part(cs, "vib", _vib),
+        elec=_elec(cs, charge),
+    )
+    _FP_CACHE.put(key, fp)
+    return fp
+
+
+def _cached_part(cs: CageSymmetry, name: str, fn):
+    # charge-independent parts are computed once per cage graph
+    key = (_key(cs.neighbours), name)
+    hit = _FP_CACHE.get(key)
+    if hit is None:
+        hit = fn(cs)
+        _FP_CACHE.put(key, hit)
+    return hit
+
+
+def predict_nmr(cage) -> NmrPrediction:
+    """Predicted 13C NMR pattern (lines = carbon orbits) of a cage.
+
+    Examples
+    --------
+    >>> predict_nmr([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]).n_lines
+    1
+    """
+    return fingerprint(cage).nmr
+
+
+def predict_vibrational(cage) -> VibrationalPrediction:
+    """Predicted vibrational symmetry species and IR/Raman counts of a cage.
+
+    Examples
+    --------
+    >>> predict_vibrational([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]).n_distinct
+    3
+    """
+    return fingerprint(cage).vib
+
+
+def predict_electronic(cage, charge: int = 0) -> ElectronicPrediction:
+    """Predicted Hückel levels, shell type and frontier transitions of a cage.
+
+    Examples
+    --------
+    >>> predict_electronic([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]).shell
+    'open'
+    """
+    return fingerprint(cage, charge).elec
+
+
+def symmetric_geometry(cage, tol: float = GEOMETRY_TOL) -> SymmetricGeometry:
+    """The symmetric model geometry (Å) of a cage, made on demand and cached.
+
+    A model for symmetry analysis (spring-relaxed, exactly symmetrised), not
+    an optimised structure.
+
+    Examples
+    --------
+    >>> geo = symmetric_geometry([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]])
+    >>> geo.coords.shape
+    (4, 3)
+    """
+    nb = _neighbours_of(cage)
+    key = (_key(nb), float(tol))
+    hit = _GEO_CACHE.get(key)
+    if hit is None:
+        cs = cage_symmetry(nb)
+        hit = build_symmetric_geometry(nb, cs.group, cs.embedding, tol=tol)
+        _GEO_CACHE.put(key, hit)
+    return hit
+
+
+def point_group_from_geometry(cage, coords, tol: float = GEOMETRY_TOL):
+    """Point group of a given geometry of the cage (atoms in the cage's order).
+
+    Each automorphism is fitted with an orthogonal matrix; the geometry must
+    realise every automorphism within ``tol`` Å.
+
+    Raises
+    ------
+    SymmetryError
+        If the geometry breaks the symmetry by more than ``tol`` (GEOMETRY_TOL).
+
+    Examples
+    --------
+    >>> nb = [[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]
+    >>> x = [[1, 1, 1], [1, -1, -1], [-1, 1, -1], [-1, -1, 1]]
+    >>> point_group_from_geometry(nb, x).symbol
+    'Td'
+    """
+    from .pointgroup import identify_point_group
+
+    cs = cage_symmetry(cage)
+    ops = symmetry_operations(coords, cs.group, tol=tol)
+    n_fixed = (cs.group.perms == np.arange(cs.group.perms.shape[1])[None, :]).sum(axis=1)
+    return identify_point_group(ops, weights=n_fixed)
