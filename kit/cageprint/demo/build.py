@@ -60,13 +60,18 @@ def _header(frac_or_title, technique: str, extra: dict | None = None) -> dict:
     return h
 
 
-def _nmr_shifts(rng, k: int) -> np.ndarray:
-    """Invented shifts for k orbits in the sp2 cage region, >= 0.15 ppm apart."""
+#: invented shifts are drawn at least this far apart (ppm), across all cages of a fraction
+MIN_SEPARATION_PPM = 0.3
+
+
+def _nmr_shifts(rng, k: int, taken: list[float]) -> np.ndarray:
+    """Invented shifts for k orbits in the sp2 cage region, apart from each other and ``taken``."""
     out: list[float] = []
     while len(out) < k:
-        s = float(rng.uniform(131.0, 150.0))
-        if all(abs(s - o) >= 0.15 for o in out):
+        s = float(rng.uniform(131.0, 152.0))
+        if all(abs(s - o) >= MIN_SEPARATION_PPM for o in out + taken):
             out.append(s)
+    taken.extend(out)
     return np.array(out)
 
 
@@ -75,13 +80,14 @@ def _nmr_file(frac: Fraction, path: pathlib.Path) -> dict:
     x = np.linspace(120.0, 200.0, 20001)
     y = np.zeros_like(x)
     orbit_truth = []
+    taken: list[float] = []
     for ci, t in enumerate(frac.cages):
         cage, fp = _cage(t)
         sizes = np.array(fp.nmr.sizes, float)
         if t.inside == "Sc3N" and sizes.size == 2:
             shifts = np.array([144.5, 137.3])  # invented, near the region reported for this cage
         else:
-            shifts = _nmr_shifts(rng, sizes.size)
+            shifts = _nmr_shifts(rng, sizes.size, taken)
         pair = None
         if ci == 0 and sizes.size > 4:
             i, j = 1, 3  # an unresolved pair: two orbits nearly on top of each other

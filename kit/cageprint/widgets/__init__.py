@@ -1,0 +1,36 @@
+"""JupyterLab widgets (ipywidgets + plotly FigureWidget), thin over :class:`cageprint.session.Session`.
+
+Each widget keeps its controls as attributes (set ``.value`` from Python or
+move them in the page) and its layout in ``.ui`` (``display(widget.ui)``).
+Errors are shown inside the widget in plain words.  Stable CSS classes
+(``cp-*``) and data attributes mark the parts a browser test looks for.
+
+Live widgets do not survive sharing; :func:`record` shows the static copy (an
+HTML table and a plain figure) that an executed notebook keeps.
+"""
+
+from __future__ import annotations
+
+from ._common import CONCLUSION_MIME, Problem, conclude, record, sync_figure
+from .board import AssignmentBoard, ranking_html, ranking_rows
+from .cageview import CageView, cage_figures
+from .chooser import CandidateChooser
+from .compare import ComparisonPanel, predicted_count
+from .loader import SpectrumLoader
+
+__all__ = [
+    "SpectrumLoader",
+    "CandidateChooser",
+    "ComparisonPanel",
+    "CageView",
+    "AssignmentBoard",
+    "cage_figures",
+    "ranking_html",
+    "ranking_rows",
+    "predicted_count",
+    "record",
+    "conclude",
+    "sync_figure",
+    "Problem",
+    "CONCLUSION_MIME",
+]

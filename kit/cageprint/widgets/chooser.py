@@ -1,0 +1,150 @@
+"""Candidate chooser: formula, all isomers or IPR, filters, a sortable table, a picker."""
+
+from __future__ import annotations
+
+import ipywidgets as w
+
+from .. import figures
+from . import _port
+from ._common import Problem
+
+#: sort keys offered: label -> (row key, descending?)
+SORTS = {"isomer number": ("isomer", False), "point group order": ("order", True),
+         "13C lines": ("lines", False), "IR bands": ("ir", False),
+         "Raman bands": ("raman", False), "Hückel gap": ("gap", True)}
+#: at most this many rows are drawn (the filters narrow the rest)
+MAX_ROWS = 200
+_COLUMNS = ["isomer", "point group", "13C pattern", "lines", "IR", "Raman", "gap/|β|",
+            "fused pentagons"]
+
+
+def _group_order(pg: str) -> int:
+    """Rough size of a point group from its label, for sorting (no science relies on it)."""
+    from ..symmetry import character_table
+
+    try:
+        return int(character_table(pg).order)
+    except Exception:  # an unknown label sorts last
+        return 0
+
+
+class CandidateChooser:
+    """Generate the candidate cages of a formula and pick a few to compare.
+
+    Parameters
+    ----------
+    session : Session
+        Receives the formula and candidates (``set_formula``/``set_candidates``).
+    formula : str, optional
+        Start with this formula (else the session's, e.g. from the mass step).
+    ipr : bool
+        IPR isomers only (default) or all isomers.
+    """
+
+    def __init__(self, session, formula: str | None = None, ipr: bool = True):
+        self.session = session
+        self.problem = Problem("cp-chooser-error")
+        self.formula = w.Text(value=formula or session.formula or "", description="formula",
+                              placeholder="C78 or Sc3N@C80", continuous_update=False)
+        self.formula.add_class("cp-formula")
+        self.ipr = w.ToggleButtons(options=[("IPR only", True), ("all isomers", False)],
+                                   value=bool(ipr))
+        self.ipr.add_class("cp-ipr")
+        self.point_group = w.Dropdown(options=["any"], value="any", description="point group")
+        self.point_group.add_class("cp-pg-filter")
+        self.fused = w.Dropdown(options=[("any", -1)], value=-1, description="fused pent.")
+        self.fused.add_class("cp-fused-filter")
+        self.sort = w.Dropdown(options=list(SORTS), value="isomer number", description="sort by")
+        self.sort.add_class("cp-sort")
+        self.pick = w.SelectMultiple(options=[], description="compare", rows=6)
+        self.pick.add_class("cp-chosen")
+        self.table = w.HTML()
+        self.table.add_class("cp-candidates")
+        self.rows: list[dict] = []
+        self._fused: dict[int, int] = {}
+        self.formula.observe(self._regenerate, names=["value"])
+        self.ipr.observe(self._regenerate, names=["value"])
+        for c in (self.point_group, self.fused, self.sort, self.pick):
+            c.observe(self._redraw, names=["value"])
+        self.ui = w.VBox([w.HBox([self.formula, self.ipr]),
+                          w.HBox([self.point_group, self.fused, self.sort]),
+                          self.problem.widget, self.pick, self.table])
+        self.ui.add_class("cp-chooser")
+        if self.formula.value:
+            if session.candidates and session.formula == self.formula.value \
+                    and (session.ipr is None or session.ipr == bool(ipr)):
+                self._rebuild_rows()
+            else:
+                self._regenerate(None)
+
+    @property
+    def chosen(self) -> tuple[int, ...]:
+        """Isomer numbers picked for comparison."""
+        return tuple(self.pick.value)
+
+    def _regenerate(self, _change) -> None:
+        text = self.formula.value.strip()
+        if not text:
+            return
+        try:
+            _port.set_formula(self.session, text, ipr=self.ipr.value)
+        except Exception as exc:  # shown in the widget, candidates left as they were
+            self.problem.show(exc)
+            return
+        self.problem.clear()
+        self._rebuild_rows()
+
+    def _fused_count(self, c) -> int:
+        if self.session.ipr:
+            return 0
+        if c.isomer not in self._fused:
+            from ..cage import Cage
+
+            self._fused[c.isomer] = len(Cage.from_spiral(c.n, c.spiral).fused_pentagon_pairs)
+        return self._fused[c.isomer]
+
+    def _rebuild_rows(self) -> None:
+        self._fused = {}
+        cands = _port.candidates(self.session)
+        self.rows = [{
+            "isomer": c.isomer, "point group": c.point_group, "order": _group_order(c.point_group),
+            "13C pattern": c.pattern, "lines": len(c.nmr_sizes), "ir": c.ir_count,
+            "raman": c.raman_count, "gap": c.gap_beta, "IR": c.ir_count, "Raman": c.raman_count,
+            "gap/|β|": None if c.gap_beta is None else round(c.gap_beta, 3),
+            "fused pentagons": self._fused_count(c),
+        } for c in cands]
+        groups = sorted({r["point group"] for r in self.rows},
+                        key=lambda g: (-_group_order(g), g))
+        fused = sorted({r["fused pentagons"] for r in self.rows})
+        with self.pick.hold_trait_notifications():
+            self.point_group.options = ["any", *groups]
+            self.point_group.value = "any"
+            self.fused.options = [("any", -1)] + [(str(f), f) for f in fused]
+            self.fused.value = -1
+        self._redraw(None)
+
+    def visible_rows(self) -> list[dict]:
+        """Rows passing the filters, in the chosen order."""
+        rows = [r for r in self.rows
+                if self.point_group.value in ("any", r["point group"])
+                and self.fused.value in (-1, r["fused pentagons"])]
+        key, desc = SORTS[self.sort.value]
+        rows.sort(key=lambda r: (r[key] is None, -(r[key] or 0) if desc else (r[key] or 0),
+                                 r["isomer"]))
+        return rows
+
+    def _redraw(self, change) -> None:
+        rows = self.visible_rows()
+        if change is None or change["owner"] is not self.pick:
+            keep = [v for v in self.pick.value if any(r["isomer"] == v for r in rows)]
+            opts = [(f"{self.session.formula} {r['isomer']} ({r['point group']})", r["isomer"])
+                    for r in rows]
+            self.pick.unobserve(self._redraw, names=["value"])
+            self.pick.options = opts
+            self.pick.value = keep
+            self.pick.observe(self._redraw, names=["value"])
+        what = "IPR isomers" if self.session.ipr else "isomers"
+        self.table.value = figures.html_table(
+            rows, _COLUMNS, name="candidates", key="isomer", highlight=self.pick.value,
+            caption=f"{len(rows)} of {len(self.rows)} {what} of {self.session.formula}",
+            max_rows=MAX_ROWS)

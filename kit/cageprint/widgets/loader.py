@@ -1,0 +1,134 @@
+"""Spectrum loader: pick a file from the folder or upload one; see it at once."""
+
+from __future__ import annotations
+
+import html
+import os
+import pathlib
+
+import ipywidgets as w
+
+from .. import figures
+from ..spectra import TECHNIQUES
+from . import _port
+from ._common import Problem, figure_widget, sync_figure
+
+#: file endings offered in the picker
+SPECTRUM_SUFFIXES = (".jdx", ".dx", ".jcamp", ".csv", ".tsv", ".txt", ".mzml", ".peaks")
+_AUTO = "(from the file)"
+_LABELS = {"mass": "mass spectrum", "nmr": "13C NMR", "ir": "IR", "raman": "Raman",
+           "uvvis": "UV-vis"}
+
+
+class SpectrumLoader:
+    """Load a spectrum into a session from the notebook's folder or an upload.
+
+    The format is detected by the readers; the technique and units found are
+    shown and the technique can be corrected (the file is then read again as
+    that technique).  A file that cannot be read leaves the previous spectrum
+    in place and says why in plain words.
+
+    Parameters
+    ----------
+    session : Session
+        The headless session the spectrum goes into.
+    folder : path-like
+        Folder whose spectrum files are offered (default: the working directory).
+    technique : str, optional
+        Preselect a technique instead of taking it from the file.
+    initial : str, optional
+        File (name in ``folder``) to load at once.
+    """
+
+    def __init__(self, session, folder: str | os.PathLike = ".", technique: str | None = None,
+                 initial: str | None = None):
+        self.session = session
+        self.folder = pathlib.Path(folder)
+        self.spectrum = None
+        self.source: str | None = None
+        files = sorted(p.name for p in self.folder.iterdir()
+                       if p.is_file() and p.suffix.lower() in SPECTRUM_SUFFIXES) \
+            if self.folder.is_dir() else []
+        self.file = w.Dropdown(options=["", *files], value="", description="file",
+                               layout=w.Layout(width="420px"))
+        self.file.add_class("cp-file")
+        self.upload = w.FileUpload(accept=",".join(SPECTRUM_SUFFIXES), multiple=False,
+                                   description="upload")
+        self.upload.add_class("cp-upload")
+        opts = [(_AUTO, "")] + [(_LABELS[t], t) for t in TECHNIQUES]
+        self.technique = w.Dropdown(options=opts, value=technique or "", description="technique")
+        self.technique.add_class("cp-technique")
+        self.info = w.HTML()
+        self.info.add_class("cp-spectrum-info")
+        self.problem = Problem("cp-loader-error")
+        self.fig = figure_widget(figures.spectrum_figure(_placeholder(), title="no spectrum yet"),
+                                 "cp-loader-figure")
+        self.file.observe(self._on_file, names=["value"])
+        self.upload.observe(self._on_upload, names=["value"])
+        self.technique.observe(self._on_technique, names=["value"])
+        self.ui = w.VBox([w.HBox([self.file, self.upload, self.technique]), self.info,
+                          self.problem.widget, self.fig])
+        self.ui.add_class("cp-loader")
+        if initial:
+            self.file.value = initial
+
+    # -- actions -------------------------------------------------------------
+    def load(self, source, name: str | None = None) -> bool:
+        """Read ``source`` (path or bytes) into the session; True when it worked."""
+        tech = self.technique.value or None
+        try:
+            spec = _port.load(self.session, source, technique=tech, name=name)
+        except Exception as exc:  # shown, not swallowed: the user reads it in the widget
+            shown = name or str(source)
+            self.problem.show(f"Could not read {shown}: {exc}. "
+                              "The previous spectrum is still loaded." if self.spectrum
+                              is not None else f"Could not read {shown}: {exc}")
+            return False
+        self.problem.clear()
+        self.spectrum = spec
+        self.source = name or str(source)
+        self._show()
+        return True
+
+    def _show(self) -> None:
+        s = self.spectrum
+        fmt = s.meta.get("format", "")
+        self.info.value = (
+            f'<span class="cp-found" data-technique="{s.technique}">'
+            f"{html.escape(self.source or '')}: {_LABELS.get(s.technique, s.technique)}, "
+            f"x in {html.escape(s.x_unit)}, y as {html.escape(s.y_unit)}, {len(s)} points"
+            f"{', ' + html.escape(str(fmt)) if fmt else ''}, {s.kind}</span>")
+        new = figures.spectrum_figure(s, title=self.source)
+        with self.fig.batch_update():
+            self.fig.data[0].x, self.fig.data[0].y = s.x, s.y
+            self.fig.data[1].x, self.fig.data[1].y = [], []
+            self.fig.data[1].name = "peaks (not picked yet)"
+            self.fig.layout.title.text = self.source
+            self.fig.layout.xaxis.title.text = new.layout.xaxis.title.text
+            self.fig.layout.yaxis.title.text = new.layout.yaxis.title.text
+            self.fig.layout.xaxis.autorange = new.layout.xaxis.autorange or True
+        sync_figure(self.fig)
+
+    # -- callbacks -----------------------------------------------------------
+    def _on_file(self, change) -> None:
+        if change["new"]:
+            self.load(self.folder / change["new"], name=change["new"])
+
+    def _on_upload(self, change) -> None:
+        for item in change["new"] or ():
+            content = item["content"] if isinstance(item, dict) else item.content
+            name = item["name"] if isinstance(item, dict) else item.name
+            self.load(bytes(content), name=name)
+
+    def _on_technique(self, change) -> None:
+        if self.source is None:
+            return
+        path = self.folder / self.source
+        if path.is_file():
+            self.load(path, name=self.source)
+
+
+def _placeholder():
+    from ..spectra import Spectrum
+
+    return Spectrum([0.0, 1.0], [0.0, 0.0], technique="ir", meta={"title": "no spectrum yet"})
