@@ -389,8 +389,8 @@ class Envelope:
         )
 
 
-def _ro(a: np.ndarray) -> np.ndarray:
-    a = np.ascontiguousarray(a, dtype=float)
+def _ro(a: np.ndarray, dtype=float) -> np.ndarray:
+    a = np.ascontiguousarray(a, dtype=dtype)
     a.setflags(write=False)
     return a
 
@@ -465,7 +465,7 @@ def isotope_envelope(
         charge=z,
         mz=_ro(m),
         abundance=_ro(p),
-        nominal=None if nominal is None else _ro(nominal),
+        nominal=None if nominal is None else _ro(nominal, np.int64),
         c13=c,
         fine=fine,
     )
