@@ -1,0 +1,422 @@
+"""Array kernels of the face-spiral method (compiled with numba when available).
+
+Everything here works on plain integer arrays so that numba can compile it;
+without numba the same functions run as ordinary (slow) Python.  Nothing in
+this module is public: :mod:`cageprint.cage.spiral` and
+:mod:`cageprint.cage.enumerate` wrap it.
+
+Conventions
+-----------
+Faces are numbered ``0 .. F-1`` in spiral order (``F = n/2 + 2``).  While a
+spiral is wound up, the faces placed so far form a disc whose rim is the
+*boundary*: a cyclic list of faces ``bnd[h:t]`` that still have free edges,
+oldest first.  Face ``k`` is laid into the gap between the newest rim face
+``bnd[t-1]`` and the oldest ``bnd[h]``; rim faces that become fully surrounded
+leave the rim and ``k`` touches the next one.  Every placement records the
+oriented triangles ``(a, b, c)`` of the dual; all triangles share one sense
+of rotation, and ``nxt[a, b] = c`` is the neighbour of ``a`` that follows
+``b`` in that sense.  Atoms of the cage are these triangles.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+try:  # numba is a core dependency; the fallback keeps a source checkout usable
+    from numba import njit
+except ImportError:  # pragma: no cover - exercised only without numba
+
+    def njit(*args, **kwargs):
+        if args and callable(args[0]):
+            return args[0]
+        return lambda f: f
+
+
+# status codes of _place (spiral.py turns them into words)
+OK = 0
+OVERFULL = 1  # a face would get more neighbours than its size
+FUSED = 2  # two pentagons would share an edge (only when pentagons must be isolated)
+EARLY = 3  # the rim closes before the last face
+SURROUNDED = 4  # a face is surrounded before the spiral ends
+OPEN = 5  # the last face does not close the rim
+
+
+@njit(cache=True)
+def _connect(k, x, size, deg, nbr, ipr):
+    if deg[x] >= size[x] or deg[k] >= size[k]:
+        return OVERFULL
+    if ipr and size[x] == 5 and size[k] == 5:
+        return FUSED
+    nbr[x, deg[x]] = k
+    deg[x] += 1
+    nbr[k, deg[k]] = x
+    deg[k] += 1
+    return OK
+
+
+@njit(cache=True)
+def _add_tri(tri, ptr, a, b, c):
+    i = ptr[2]
+    tri[i, 0] = a
+    tri[i, 1] = b
+    tri[i, 2] = c
+    ptr[2] = i + 1
+
+
+@njit(cache=True)
+def place(k, nfaces, size, deg, nbr, bnd, ptr, tri, ipr):
+    """Lay face ``k`` (its size already in ``size[k]``) onto the spiral.
+
+    ``ptr`` holds ``[head, tail, n_triangles, offending_face]``.  Returns a
+    status code; on failure the caller restores the state with :func:`unplace`
+    (and its saved rim) and ``ptr[3]`` names the face that broke the rule.
+    """
+    ptr[3] = k
+    if k == 0:
+        deg[0] = 0
+        bnd[0] = 0
+        ptr[0] = 0
+        ptr[1] = 1
+        ptr[2] = 0
+        return OK
+    if k == 1:
+        deg[1] = 0
+        c = _connect(1, 0, size, deg, nbr, ipr)
+        if c != OK:
+            return c
+        bnd[1] = 1
+        ptr[1] = 2
+        return OK
+    deg[k] = 0
+    h = ptr[0]
+    t = ptr[1]
+    bm = bnd[t - 1]
+    b0 = bnd[h]
+    c = _connect(k, bm, size, deg, nbr, ipr)
+    if c != OK:
+        ptr[3] = bm
+        return c
+    c = _connect(k, b0, size, deg, nbr, ipr)
+    if c != OK:
+        ptr[3] = b0
+        return c
+    _add_tri(tri, ptr, bm, b0, k)
+    closed = False
+    while True:
+        changed = False
+        if t - h >= 2 and deg[bnd[h]] == size[bnd[h]]:
+            old = bnd[h]
+            h += 1
+            if t - h == 1:
+                _add_tri(tri, ptr, old, bnd[h], k)
+                closed = True
+                break
+            nb = bnd[h]
+            c = _connect(k, nb, size, deg, nbr, ipr)
+            if c != OK:
+                ptr[3] = nb
+                return c
+            _add_tri(tri, ptr, old, nb, k)
+            changed = True
+        if t - h >= 2 and deg[bnd[t - 1]] == size[bnd[t - 1]]:
+            old = bnd[t - 1]
+            t -= 1
+            if t - h == 1:
+                _add_tri(tri, ptr, bnd[h], old, k)
+                closed = True
+                break
+            nb = bnd[t - 1]
+            c = _connect(k, nb, size, deg, nbr, ipr)
+            if c != OK:
+                ptr[3] = nb
+                return c
+            _add_tri(tri, ptr, nb, old, k)
+            changed = True
+        if not changed:
+            break
+    ptr[0] = h
+    ptr[1] = t
+    if closed:
+        if k != nfaces - 1:
+            return EARLY
+        if deg[k] != size[k]:
+            return OPEN
+        if deg[bnd[h]] != size[bnd[h]]:
+            ptr[3] = bnd[h]
+            return OPEN
+        return OK
+    if k == nfaces - 1:
+        return OPEN
+    if deg[k] == size[k]:
+        return SURROUNDED
+    bnd[t] = k
+    ptr[1] = t + 1
+    return OK
+
+
+@njit(cache=True)
+def unplace(k, deg, nbr):
+    """Undo the edges laid by face ``k`` (faces after ``k`` must be undone first)."""
+    for j in range(deg[k]):
+        x = nbr[k, j]
+        deg[x] -= 1
+    deg[k] = 0
+
+
+@njit(cache=True)
+def windup(size, ipr):
+    """Wind a whole spiral up.
+
+    Returns ``(status, face, offender, deg, nbr, tri)``: ``face`` is the face being
+    placed when a rule broke and ``offender`` the face that broke it.
+    """
+    nf = size.shape[0]
+    n = 2 * nf - 4
+    deg = np.zeros(nf, np.int64)
+    nbr = np.zeros((nf, 6), np.int64)
+    bnd = np.zeros(nf + 1, np.int64)
+    ptr = np.zeros(4, np.int64)
+    tri = np.zeros((n, 3), np.int64)
+    for k in range(nf):
+        c = place(k, nf, size, deg, nbr, bnd, ptr, tri, ipr)
+        if c != OK:
+            return c, k, ptr[3], deg, nbr, tri
+    return OK, nf - 1, nf - 1, deg, nbr, tri
+
+
+@njit(cache=True)
+def next_matrix(tri, nf):
+    """``nxt[a, b]``: the neighbour of face ``a`` that follows ``b`` (one sense)."""
+    nxt = -np.ones((nf, nf), np.int64)
+    for i in range(tri.shape[0]):
+        a = tri[i, 0]
+        b = tri[i, 1]
+        c = tri[i, 2]
+        nxt[a, b] = c
+        nxt[b, c] = a
+        nxt[c, a] = b
+    return nxt
+
+
+@njit(cache=True)
+def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd):
+    """Read the face spiral starting at faces ``f0, f1`` in rotation ``sense``.
+
+    The face order goes to ``out``.  Returns -1 if no spiral starts there,
+    1 if its size sequence is larger than ``ref`` (abandoned at the first
+    larger face), 0 if equal, 2 if smaller (or if ``have_ref`` is false).
+    """
+    nf = size.shape[0]
+    for i in range(nf):
+        placed[i] = 0
+        cnt[i] = 0
+    state = 0 if have_ref else 2
+    out[0] = f0
+    out[1] = f1
+    for k in range(2):
+        f = out[k]
+        if state == 0:
+            if size[f] < ref[k]:
+                state = 2
+            elif size[f] > ref[k]:
+                return 1
+        placed[f] = 1
+        for j in range(deg[f]):
+            cnt[nbr[f, j]] += 1
+    bnd[0] = f0
+    bnd[1] = f1
+    h = 0
+    t = 2
+    for k in range(2, nf):
+        bm = bnd[t - 1]
+        b0 = bnd[h]
+        if sense == 0:
+            f = nxt[bm, b0]
+        else:
+            f = nxt[b0, bm]
+        if f < 0 or placed[f]:
+            return -1
+        if state == 0:
+            if size[f] < ref[k]:
+                state = 2
+            elif size[f] > ref[k]:
+                return 1
+        out[k] = f
+        placed[f] = 1
+        for j in range(deg[f]):
+            cnt[nbr[f, j]] += 1
+        if k == nf - 1:
+            break
+        while True:
+            changed = False
+            if t - h >= 2 and cnt[bnd[h]] == deg[bnd[h]]:
+                h += 1
+                changed = True
+            if t - h >= 2 and cnt[bnd[t - 1]] == deg[bnd[t - 1]]:
+                t -= 1
+                changed = True
+            if not changed:
+                break
+        if cnt[f] == deg[f]:
+            return -1
+        bnd[t] = f
+        t += 1
+    return state
+
+
+@njit(cache=True)
+def smallest_spiral(nxt, size, deg, nbr, pentagon_starts_only):
+    """Face order of the lexicographically smallest spiral (pentagon-first sizes).
+
+    Tries every start face, second face and sense (only pentagon start faces
+    when asked).  Returns an array of length F, or ``[-1]`` if none closes.
+    """
+    nf = size.shape[0]
+    best = np.zeros(nf, np.int64)
+    best_faces = -np.ones(nf, np.int64)
+    have = False
+    out = np.zeros(nf, np.int64)
+    placed = np.zeros(nf, np.int64)
+    cnt = np.zeros(nf, np.int64)
+    bnd = np.zeros(nf + 1, np.int64)
+    for f0 in range(nf):
+        if pentagon_starts_only and size[f0] != 5:
+            continue
+        for j in range(deg[f0]):
+            f1 = nbr[f0, j]
+            for sense in range(2):
+                r = unwind(f0, f1, sense, nxt, size, deg, nbr, best, have, out, placed, cnt, bnd)
+                if r == 2:
+                    have = True
+                    for i in range(nf):
+                        best_faces[i] = out[i]
+                        best[i] = size[out[i]]
+    if not have:
+        return best_faces[:1]
+    return best_faces
+
+
+@njit(cache=True)
+def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
+    # the spiral being tested is faces 0, 1, 2, ... in sense 0: its sizes are ``size``
+    nf = size.shape[0]
+    for f0 in range(nf):
+        if size[f0] != 5:
+            continue
+        for j in range(deg[f0]):
+            f1 = nbr[f0, j]
+            for sense in range(2):
+                if f0 == 0 and f1 == 1 and sense == 0:
+                    continue
+                r = unwind(f0, f1, sense, nxt, size, deg, nbr, size, True, out, placed, cnt, bnd)
+                if r == 2:
+                    return False
+    return True
+
+
+def new_search_state(n):
+    """Arrays holding a resumable depth-first search over spirals of C``n``."""
+    nf = n // 2 + 2
+    st = {
+        "size": np.zeros(nf, np.int64),
+        "deg": np.zeros(nf, np.int64),
+        "nbr": np.zeros((nf, 6), np.int64),
+        "bnd": np.zeros(nf + 1, np.int64),
+        "ptr": np.zeros(4, np.int64),
+        "tri": np.zeros((n, 3), np.int64),
+        "bsave": np.zeros((nf, nf + 1), np.int64),
+        "psave": np.zeros((nf, 4), np.int64),
+        "tried": np.zeros(nf + 1, np.int64),
+        # [k, pentagons placed, started, nodes visited]
+        "ctl": np.zeros(4, np.int64),
+    }
+    return st
+
+
+@njit(cache=True)
+def search(size, deg, nbr, bnd, ptr, tri, bsave, psave, tried, ctl, ipr, out, max_out):
+    """Resumable depth-first search for canonical spirals in lexicographic order.
+
+    Face 0 is always a pentagon (a canonical spiral starts at one).  At each
+    face the pentagon is tried before the hexagon, so canonical spirals come
+    out in increasing lexicographic order of their pentagon positions.  Up to
+    ``max_out`` spirals (rows of 12 one-based positions) are written to
+    ``out``; returns ``(found, finished)``.  Call again to continue.
+    """
+    nf = size.shape[0]
+    nout = 0
+    placed = np.zeros(nf, np.int64)
+    cnt = np.zeros(nf, np.int64)
+    ubnd = np.zeros(nf + 1, np.int64)
+    uout = np.zeros(nf, np.int64)
+    if ctl[2] == 0:
+        ctl[2] = 1
+        size[0] = 5
+        place(0, nf, size, deg, nbr, bnd, ptr, tri, ipr)
+        ctl[0] = 1
+        ctl[1] = 1
+        tried[1] = 0
+    k = ctl[0]
+    npent = ctl[1]
+    nodes = ctl[3]
+    while k >= 1:
+        if k == nf:
+            # a complete spiral: keep it if no pentagon start gives a smaller one
+            nxt = next_matrix(tri, nf)
+            if _is_canonical(nxt, size, deg, nbr, uout, placed, cnt, ubnd):
+                j = 0
+                for i in range(nf):
+                    if size[i] == 5:
+                        out[nout, j] = i + 1
+                        j += 1
+                nout += 1
+            k -= 1
+            unplace(k, deg, nbr)
+            for i in range(nf + 1):
+                bnd[i] = bsave[k, i]
+            for i in range(4):
+                ptr[i] = psave[k, i]
+            if size[k] == 5:
+                npent -= 1
+            if nout >= max_out:
+                break
+            continue
+        tk = tried[k]
+        if tk == 2:
+            k -= 1
+            if k >= 1:
+                unplace(k, deg, nbr)
+                for i in range(nf + 1):
+                    bnd[i] = bsave[k, i]
+                for i in range(4):
+                    ptr[i] = psave[k, i]
+                if size[k] == 5:
+                    npent -= 1
+            continue
+        tried[k] = tk + 1
+        s = 5 if tk == 0 else 6
+        np_after = npent + (1 if s == 5 else 0)
+        if np_after > 12 or 12 - np_after > nf - 1 - k:
+            continue
+        nodes += 1
+        for i in range(nf + 1):
+            bsave[k, i] = bnd[i]
+        for i in range(4):
+            psave[k, i] = ptr[i]
+        size[k] = s
+        c = place(k, nf, size, deg, nbr, bnd, ptr, tri, ipr)
+        if c != OK:
+            unplace(k, deg, nbr)
+            for i in range(nf + 1):
+                bnd[i] = bsave[k, i]
+            for i in range(4):
+                ptr[i] = psave[k, i]
+            continue
+        npent = np_after
+        k += 1
+        if k <= nf:
+            tried[k] = 0
+    ctl[0] = k
+    ctl[1] = npent
+    ctl[3] = nodes
+    return nout, k < 1

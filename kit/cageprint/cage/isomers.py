@@ -1,0 +1,182 @@
+"""All isomers of C_n in canonical-spiral order, and their isomer numbers.
+
+Notes
+-----
+The search lays the faces of a spiral one at a time, pentagon before hexagon,
+starting with a pentagon, and abandons a partial spiral as soon as it cannot
+close (a face would get too many neighbours, the rim closes early, a face is
+surrounded too soon, or, for IPR, two pentagons touch).  A complete spiral is
+kept only if no spiral read from another pentagon, neighbour and sense of
+rotation is smaller; each competitor is abandoned at its first larger face.
+Kept spirals therefore come out in increasing lexicographic order, which is
+the order that defines isomer numbers (IPR isomers are numbered among IPR
+isomers).
+
+References
+----------
+D. E. Manolopoulos, J. C. May, S. E. Down, "Theoretical studies of the
+fullerenes: C34 to C70", Chem. Phys. Lett. 181, 105 (1991).
+P. W. Fowler, D. E. Manolopoulos, *An Atlas of Fullerenes*, Clarendon Press,
+Oxford, 1995.
+"""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Iterator
+from functools import lru_cache
+
+import numpy as np
+
+from ..errors import CageError
+from . import _kernels as K
+from .model import Cage
+from .spiral import check_n
+
+__all__ = ["iter_isomers", "iter_spirals", "count_isomers", "isomer_number"]
+
+#: spirals handed over per call of the compiled search (the first call hands fewer)
+BATCH = 4096
+
+
+def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
+    """Canonical spirals of C_n in lexicographic order, in batches.
+
+    Yields (k, 12) int arrays of one-based pentagon positions.  This is the
+    bare search behind :func:`iter_isomers`, without building Cage objects.
+
+    Examples
+    --------
+    >>> sum(len(b) for b in iter_spirals(40))
+    40
+    """
+    n = check_n(n)
+    st = K.new_search_state(n)
+    size = 64
+    while True:
+        out = np.zeros((size, 12), np.int64)
+        found, done = K.search(
+            st["size"], st["deg"], st["nbr"], st["bnd"], st["ptr"], st["tri"],
+            st["bsave"], st["psave"], st["tried"], st["ctl"], bool(ipr), out, size,
+        )
+        if found:
+            yield out[:found]
+        if done:
+            return
+        size = min(BATCH, size * 4)
+
+
+def iter_isomers(n: int, ipr: bool = False, progress: bool = False) -> Iterator[Cage]:
+    """Every isomer of C_n (or every IPR isomer), numbered, in canonical-spiral order.
+
+    A generator: isomers stream out as the search finds them.
+
+    Parameters
+    ----------
+    n : int
+        Number of atoms.
+    ipr : bool
+        Only isomers obeying the isolated pentagon rule, numbered among themselves.
+    progress : bool
+        Show a progress bar (tqdm) on standard error.
+
+    Yields
+    ------
+    Cage
+        With ``spiral == canonical_spiral`` and its isomer number set
+        (``isomer`` for IPR lists, ``isomer_all`` for full lists).
+
+    Examples
+    --------
+    >>> [c.isomer for c in iter_isomers(28)]
+    [1, 2]
+    >>> [c.spiral for c in iter_isomers(70, ipr=True)]
+    [(1, 7, 9, 11, 13, 15, 27, 29, 31, 33, 35, 37)]
+    """
+    n = check_n(n)
+    bar = None
+    if progress:
+        from tqdm.auto import tqdm
+
+        bar = tqdm(
+            desc=f"C{n} {'IPR ' if ipr else ''}isomers", unit=" isomers", file=sys.stderr
+        )
+    rank = 0
+    try:
+        for batch in iter_spirals(n, ipr):
+            for row in batch.tolist():
+                rank += 1
+                if ipr:
+                    yield Cage._trusted(n, row, isomer_ipr=rank)
+                else:
+                    yield Cage._trusted(n, row, isomer_all=rank)
+            if bar is not None:
+                bar.update(len(batch))
+    finally:
+        if bar is not None:
+            bar.close()
+
+
+def count_isomers(n: int, ipr: bool = False) -> int:
+    """Number of isomers of C_n (IPR isomers only with ``ipr=True``).
+
+    Examples
+    --------
+    >>> count_isomers(60), count_isomers(60, ipr=True)
+    (1812, 1)
+    """
+    return sum(len(b) for b in iter_spirals(n, ipr))
+
+
+def isomer_number(n: int, spiral, ipr: bool | None = None) -> int:
+    """Isomer number of the cage with this spiral (any spiral of it).
+
+    Parameters
+    ----------
+    n : int
+        Number of atoms.
+    spiral : sequence of 12 int
+        Pentagon positions of any face spiral of the cage.
+    ipr : bool or None
+        ``True``: rank among IPR isomers; ``False``: rank among all isomers;
+        ``None`` (default): the literature number, i.e. the IPR rank for an
+        IPR cage and the all-isomer rank otherwise.
+
+    Raises
+    ------
+    CageError
+        Bad input, or ``ipr=True`` for a cage with fused pentagons.
+
+    Examples
+    --------
+    >>> isomer_number(60, [1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32])
+    1
+    >>> isomer_number(60, [1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32], ipr=False)
+    1812
+    """
+    cage = Cage.from_spiral(n, spiral)
+    if ipr is None:
+        ipr = cage.is_ipr
+    if ipr and not cage.is_ipr:
+        raise CageError(
+            f"spiral {' '.join(map(str, cage.spiral))}: this C{cage.n} cage has "
+            f"{cage.fused_pentagon_pairs} fused pentagon pair(s), so it has no IPR isomer "
+            "number; pass ipr=False"
+        )
+    return _rank(cage.n, cage.canonical_spiral, bool(ipr))
+
+
+@lru_cache(maxsize=4096)
+def _rank(n: int, canon: tuple[int, ...], ipr: bool) -> int:
+    target = np.asarray(canon, np.int64)
+    rank = 0
+    for batch in iter_spirals(n, ipr):
+        hit = np.flatnonzero((batch == target).all(axis=1))
+        if hit.size:
+            return rank + int(hit[0]) + 1
+        rank += len(batch)
+        if tuple(batch[-1].tolist()) > canon:
+            break
+    raise CageError(  # pragma: no cover - would mean the search missed a cage
+        f"C{n} spiral {' '.join(map(str, canon))} was not found by the isomer search"
+    )
