@@ -1,0 +1,82 @@
+"""``cageprint mass``: the species (cage formulas, charges, abundances) in a mass spectrum."""
+
+from __future__ import annotations
+
+import argparse
+
+COLUMNS = ("formula", "charge", "mz", "relative_abundance", "error_ppm", "envelope_score",
+           "kind", "cage_n", "cage_charge")
+
+
+def add_parser(sub) -> argparse.ArgumentParser:
+    from ..techniques.mass import MASS_TOL_FLOOR, MASS_TOL_PPM, PEAK_SNR
+
+    p = sub.add_parser(
+        "mass",
+        help="list the cage species found in a mass spectrum",
+        description="Find isotope envelopes, charges, the calibration offset and the cage "
+        "formulas in a mass spectrum (CSV/text columns, peak list, JCAMP-DX or mzML); print "
+        "one species a row.",
+    )
+    p.add_argument("file", metavar="FILE", help="mass spectrum file")
+    p.add_argument("--csv", action="store_true", help="write comma-separated values")
+    p.add_argument("--ppm", type=float, default=MASS_TOL_PPM,
+                   help=f"mass tolerance in ppm (default {MASS_TOL_PPM:g})")
+    p.add_argument("--floor", type=float, default=MASS_TOL_FLOOR,
+                   help=f"absolute mass tolerance floor in m/z (default {MASS_TOL_FLOOR:g}; "
+                   "raise it for low-resolution data)")
+    p.add_argument("--snr", type=float, default=PEAK_SNR,
+                   help=f"peak threshold in noise standard deviations (default {PEAK_SNR:g})")
+    p.add_argument("--c13", default=None,
+                   help="13C fraction: a number, or 'fit' to fit it per species "
+                   "(default natural, 0.0107)")
+    p.add_argument("--no-calibrate", action="store_true",
+                   help="do not estimate a calibration offset from the C_n ladder")
+    p.add_argument("--negative", action="store_true", help="negative-ion spectrum")
+    return p
+
+
+def _c13(value):
+    from ..errors import FormulaError
+
+    if value is None or value == "fit":
+        return value
+    try:
+        return float(value)
+    except ValueError:
+        raise FormulaError(f"--c13 must be a number or 'fit', got {value!r}") from None
+
+
+def run(args) -> int:
+    from ..spectra.readers import load_spectrum
+    from ..techniques.mass import observe_mass
+
+    spectrum = load_spectrum(args.file, technique="mass")
+    obs = observe_mass(
+        spectrum, snr=args.snr, ppm=args.ppm, floor=args.floor, c13=_c13(args.c13),
+        calibrate=not args.no_calibrate, polarity="negative" if args.negative else None,
+    )
+    rows = [
+        (s.formula, f"{s.charge:+d}" if not args.csv else str(s.charge), f"{s.mz:.5f}",
+         f"{s.relative_abundance:.4f}", f"{s.error_ppm:.2f}", f"{s.envelope_score:.4f}",
+         s.kind, str(s.cage_n), str(s.cage_charge))
+        for s in obs.species
+    ]
+    d = obs.diagnostics
+    if args.csv:
+        print(",".join(COLUMNS))
+        for r in rows:
+            print(",".join(r))
+        return 0
+    widths = [max(len(c), *(len(r[i]) for r in rows)) for i, c in enumerate(COLUMNS)]
+    print("  ".join(c.ljust(w) for c, w in zip(COLUMNS, widths)))
+    for r in rows:
+        print("  ".join(v.ljust(w) for v, w in zip(r, widths)))
+    cal = d["calibration"]
+    print(f"# {len(rows)} species; calibration offset {d['calibration_offset']:+.4f} m/z "
+          f"({cal}); {d['n_peaks']} peaks, {len(d['unexplained_envelopes'])} unexplained "
+          "envelopes")
+    for s in obs.species:
+        if s.alternatives:
+            print(f"# {s.formula}: also fits {', '.join(s.alternatives[:6])}")
+    return 0
