@@ -1,0 +1,146 @@
+"""End to end: a real JupyterLab in headless Chromium runs a notebook and reacts to a control.
+
+Needs a Chromium (Debian's ``chromium``; ``make test`` installs it when run as
+root) and python playwright (no browser download: the system Chromium is
+used).  Without a Chromium the test is skipped and says why.  Screenshots go
+to ``test-artifacts/``.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import secrets
+import shutil
+import socket
+import subprocess
+import sys
+import tempfile
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+pytestmark = [pytest.mark.browser, pytest.mark.slow]
+
+ROOT = Path(__file__).resolve().parents[2]
+NOTEBOOK = "03-carbon-13-nmr.ipynb"
+CHROMIUM_NAMES = ("chromium", "chromium-browser", "google-chrome", "google-chrome-stable")
+CHROMIUM_ARGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+                 "--no-first-run", "--disable-background-networking",
+                 "--disable-component-update", "--disable-sync"]
+
+
+def _chromium() -> str | None:
+    env = os.environ.get("CAGEPRINT_CHROMIUM")
+    if env and Path(env).exists():
+        return env
+    for name in CHROMIUM_NAMES:
+        found = shutil.which(name)
+        if found:
+            return found
+    return None
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+@pytest.fixture(scope="module")
+def lab(tmp_path_factory):
+    """A JupyterLab server on a free port, isolated dirs, serving a copy of the notebooks."""
+    if _chromium() is None:
+        pytest.skip("no Chromium found (looked for " + ", ".join(CHROMIUM_NAMES)
+                    + "); install one, e.g. `apt-get install chromium`, to run the browser test")
+    pytest.importorskip("playwright.sync_api", reason="python playwright is not installed")
+    from cageprint.demo import ensure_demo
+
+    base = tmp_path_factory.mktemp("lab")
+    work = base / "notebooks"
+    work.mkdir()
+    shutil.copy(ROOT / "notebooks" / NOTEBOOK, work / NOTEBOOK)
+    ensure_demo(work / "demo-data")
+    settings = base / "settings"
+    settings.mkdir()
+    shutil.copy(ROOT / "binder" / "overrides.json", settings / "overrides.json")
+    env = dict(os.environ)
+    for var in ("CONFIG", "DATA", "RUNTIME"):
+        d = base / f"jupyter-{var.lower()}"
+        d.mkdir()
+        env[f"JUPYTER_{var}_DIR"] = str(d)
+    env["JUPYTER_PLATFORM_DIRS"] = "1"
+    port, token = _free_port(), secrets.token_hex(16)
+    cmd = [sys.executable, "-m", "jupyterlab", "--no-browser", "--ip=127.0.0.1",
+           f"--port={port}", f"--IdentityProvider.token={token}",
+           f"--ServerApp.root_dir={work}", "--LabApp.news_url=None",
+           "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate",
+           "--LabApp.extension_manager=readonly", f"--LabApp.app_settings_dir={settings}"]
+    if hasattr(os, "geteuid") and os.geteuid() == 0:
+        cmd.append("--allow-root")
+    log = open(base / "server.log", "wb")
+    proc = subprocess.Popen(cmd, env=env, stdout=log, stderr=subprocess.STDOUT, cwd=work)
+    url = f"http://127.0.0.1:{port}"
+    deadline = time.monotonic() + 90
+    while True:
+        try:
+            urllib.request.urlopen(f"{url}/api/status?token={token}", timeout=2).read()
+            break
+        except OSError:
+            if proc.poll() is not None or time.monotonic() > deadline:
+                proc.terminate()
+                pytest.fail("JupyterLab did not start; log:\n"
+                            + (base / "server.log").read_text(errors="replace")[-3000:])
+            time.sleep(0.5)
+    yield {"url": url, "token": token}
+    proc.terminate()
+    try:
+        proc.wait(timeout=20)
+    except subprocess.TimeoutExpired:
+        proc.kill()
+    log.close()
+
+
+def test_threshold_change_updates_the_comparison_table(lab):
+    from playwright.sync_api import expect, sync_playwright
+
+    shots = ROOT / "test-artifacts"
+    shots.mkdir(exist_ok=True)
+    with sync_playwright() as p:
+        ctx = p.chromium.launch_persistent_context(
+            tempfile.mkdtemp(prefix="cp-chromium-"), executable_path=_chromium(), headless=True,
+            viewport={"width": 1400, "height": 1100}, args=CHROMIUM_ARGS)
+        page = ctx.new_page()
+        try:
+            ws = f"e2e-{secrets.token_hex(4)}"
+            page.goto(f"{lab['url']}/lab/workspaces/{ws}/tree/{NOTEBOOK}?reset&token={lab['token']}")
+            panel = page.locator(".jp-NotebookPanel:not(.lm-mod-hidden)")
+            panel.locator(".jp-Cell").first.wait_for(timeout=60_000)
+            expect(page.locator(".jp-StatusBar-TextItem",
+                                has_text=re.compile(r"\(ipykernel\) \| Idle"))).to_be_visible(
+                timeout=90_000)
+            page.locator(".lm-MenuBar-itemLabel", has_text="Run").first.click()
+            page.get_by_role("menuitem", name="Run All Cells", exact=True).click()
+            table = panel.locator(".cp-comparison table[data-cp-table='comparison']").first
+            table.wait_for(timeout=120_000)
+            panel.locator(".cp-compare-figure .js-plotly-plot .main-svg").first.wait_for(
+                timeout=60_000)
+            before = table.get_attribute("data-observed")
+            page.screenshot(path=str(shots / "e2e-lab-before.png"), full_page=False)
+            snr = panel.locator(".cp-snr select").first
+            snr.scroll_into_view_if_needed()
+            snr.select_option(label="50")
+            expect(table).not_to_have_attribute("data-observed", before, timeout=30_000)
+            after = table.get_attribute("data-observed")
+            title = panel.locator(".cp-compare-figure .js-plotly-plot .gtitle").first
+            expect(title).to_contain_text(f"{after} lines observed", timeout=30_000)
+            table.scroll_into_view_if_needed()
+            page.screenshot(path=str(shots / "e2e-lab-after.png"), full_page=False)
+            assert int(after) < int(before)  # a stricter S/N keeps fewer lines
+        except Exception:
+            page.screenshot(path=str(shots / "e2e-lab-failure.png"), full_page=True)
+            raise
+        finally:
+            ctx.close()

@@ -1,0 +1,156 @@
+"""Every template notebook runs headless on the demo data and concludes what the truth says.
+
+The notebooks are executed once per test session (``cageprint run-notebooks``'s
+own code), then each is checked: no error, its conclusion matches the demo
+scenario's truth table, the executed copy has no widget state, and the HTML
+export carries the figures' data with plotly.js embedded and no remote script.
+Wall times are written to ``test-artifacts/notebook-times.txt`` (target < 30 s
+each; a benchmark-style figure, not an assertion).
+"""
+
+from __future__ import annotations
+
+import json
+import re
+
+import nbformat
+import pytest
+
+from cageprint.cli import main
+from cageprint.cli.notebooks import (
+    NotebookRunError,
+    default_notebooks_dir,
+    inject_parameters,
+    parse_params,
+    run_notebook,
+)
+from cageprint.demo import load_truth
+
+NOTEBOOKS = sorted(p.name for p in default_notebooks_dir().glob("[0-9]*.ipynb"))
+
+
+@pytest.fixture(scope="module")
+def truth():
+    return load_truth()
+
+
+@pytest.fixture(scope="module")
+def runs(tmp_path_factory, repo_root):
+    out = tmp_path_factory.mktemp("executed")
+    done, failed = {}, {}
+    for name in NOTEBOOKS:
+        try:
+            done[name] = run_notebook(default_notebooks_dir() / name, out)
+        except NotebookRunError as exc:
+            failed[name] = str(exc)
+    art = repo_root / "test-artifacts"
+    art.mkdir(exist_ok=True)
+    (art / "notebook-times.txt").write_text(
+        "".join(f"{n}\t{r.seconds:.1f} s\n" for n, r in done.items())
+        + "".join(f"{n}\tFAILED\n" for n in failed))
+    return done, failed
+
+
+def _run(runs, name):
+    done, failed = runs
+    assert name not in failed, failed.get(name)
+    return done[name]
+
+
+def test_there_is_a_notebook_per_step():
+    stems = [n.split("-", 1)[0] for n in NOTEBOOKS]
+    assert stems == ["00", "01", "02", "03", "04", "05", "06"], NOTEBOOKS
+
+
+def _check_00(c, truth):
+    assert c["fractions"] == sorted(truth["fractions"])
+
+
+def _check_01(c, truth):
+    frac = truth["fractions"][c["fraction"]]
+    assert c["formula"] == frac["formula"]
+    assert c["charge"] == frac["charge"]
+
+
+def _check_02(c, truth):
+    # Fowler & Manolopoulos, An Atlas of Fullerenes (1995): C78 has 5 IPR isomers (from memory)
+    assert c["formula"] == "C78" and c["ipr"] is True
+    assert c["n_candidates"] == 5
+    frac = truth["fractions"]["C"]
+    assert {k["point_group"] for k in frac["cages"]} <= set(c["point_groups"])
+
+
+def _check_top(c, truth):
+    frac = truth["fractions"][c["fraction"]]
+    major = max(frac["cages"], key=lambda k: k["share"])
+    assert major["isomer"] in c["top_isomers"], (c, major)
+    assert major["point_group"] in c["top_point_groups"]
+
+
+def _check_05(c, truth):
+    frac = truth["fractions"][c["fraction"]]
+    major = max(frac["cages"], key=lambda k: k["share"])
+    assert major["isomer"] not in c["ruled_out"]
+    assert c["onset_nm"] is not None
+
+
+CHECKS = {"00": _check_00, "01": _check_01, "02": _check_02, "03": _check_top,
+          "04": _check_top, "05": _check_05, "06": _check_top}
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("name", NOTEBOOKS)
+def test_notebook_concludes_the_truth(runs, truth, name):
+    res = _run(runs, name)
+    assert res.conclusion is not None, f"{name} states no conclusion"
+    CHECKS[name[:2]](res.conclusion, truth)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("name", NOTEBOOKS)
+def test_shared_copies_open_without_kernel_or_internet(runs, name):
+    res = _run(runs, name)
+    nb = nbformat.read(res.notebook, as_version=4)
+    assert "widgets" not in nb.metadata  # no ~5 MB widget state per FigureWidget
+    text = res.notebook.read_text()
+    assert "application/vnd.jupyter.widget-state+json" not in text
+    html = res.html.read_text()
+    assert not re.search(r"<script[^>]*src=[\"']?(https?:)?//", html), "remote script in HTML"
+    if name[:2] != "00":
+        assert "Plotly.newPlot" in html  # the static figures' data are in the export
+        assert html.count("window.Plotly") >= 1 and len(html) > 3_000_000  # plotly.js inline
+        # and once only: the bundle's licence banner appears one time
+        assert html.count("plotly.js v") == 1
+
+
+def test_parameters_are_injected_after_the_parameters_cell():
+    nb = nbformat.v4.new_notebook()
+    p = nbformat.v4.new_code_cell("SNR = 5")
+    p.metadata["tags"] = ["parameters"]
+    nb.cells = [nbformat.v4.new_markdown_cell("x"), p, nbformat.v4.new_code_cell("print(SNR)")]
+    inject_parameters(nb, parse_params(["SNR=20", "FILE=a b.jdx"]))
+    assert nb.cells[2].metadata["tags"] == ["injected-parameters"]
+    assert "SNR = 20" in nb.cells[2].source and "FILE = 'a b.jdx'" in nb.cells[2].source
+
+
+def test_parameter_errors_are_plain():
+    with pytest.raises(NotebookRunError, match=r"--param '5=x': expected KEY=VALUE"):
+        parse_params(["5=x"])
+    nb = nbformat.v4.new_notebook()
+    nb.cells = [nbformat.v4.new_code_cell("x = 1")]
+    with pytest.raises(NotebookRunError, match="no cell tagged 'parameters'; cannot inject SNR"):
+        inject_parameters(nb, {"SNR": 3})
+
+
+def test_run_notebooks_reports_a_missing_notebook(tmp_path, capsys):
+    assert main(["run-notebooks", "--out", str(tmp_path), str(tmp_path / "nope.ipynb")]) == 1
+    assert "no such file" in capsys.readouterr().out
+
+
+def test_notebooks_are_stored_without_outputs():
+    # the templates are committed clean; executed copies are products of run-notebooks
+    for name in NOTEBOOKS:
+        nb = json.loads((default_notebooks_dir() / name).read_text())
+        assert all(not c.get("outputs") for c in nb["cells"] if c["cell_type"] == "code"), name
+        tagged = [c for c in nb["cells"] if "parameters" in c.get("metadata", {}).get("tags", [])]
+        assert len(tagged) == 1, name
