@@ -158,14 +158,6 @@ class NmrObservation:
 # --------------------------------------------------------------------- observe
 
 
-def _noise(y: np.ndarray) -> float:
-    """Robust noise level: scaled median absolute first difference."""
-    if y.size < 3:
-        return 0.0
-    d = np.diff(y)
-    return float(1.4826 * np.median(np.abs(d - np.median(d))) / math.sqrt(2.0))
-
-
 def _solvent_lines(solvent: str | None) -> tuple[float, ...]:
     if not solvent:
         return ()
@@ -259,7 +251,8 @@ def observe_nmr(
                     for p in pos[~keep]]
         pos, area, s_n = pos[keep], area[keep], s_n[keep]
     else:
-        pos, area, s_n, noise = _pick_profile(x, y, snr, prominence, integration_halfwidth)
+        pos, area, s_n, noise = _pick_profile(spectrum, snr, prominence,
+                                              integration_halfwidth, (lo, hi))
         diagnostics["noise"] = noise
         excluded = []
     lines_p, lines_a, lines_s = [], [], []
@@ -287,27 +280,23 @@ def observe_nmr(
     )
 
 
-def _pick_profile(x, y, snr, prominence, halfwidth):
-    """Peaks of a profile with area over +-halfwidth (baseline: median of the trace)."""
-    from scipy.signal import find_peaks
+def _pick_profile(spectrum, snr, prominence, halfwidth, region):
+    """Peaks of a profile (:func:`cageprint.spectra.pick_peaks`) and their integrals."""
+    from ..spectra import integrate, pick_peaks
 
-    base = float(np.median(y))
-    yy = y - base
-    noise = _noise(yy) or 1e-12
-    prom = snr * noise if prominence is None else float(prominence)
-    idx, _ = find_peaks(yy, prominence=prom, height=snr * noise)
-    pos, area, s_n = [], [], []
-    for i in idx:
-        m = (x >= x[i] - halfwidth) & (x <= x[i] + halfwidth)
-        if m.sum() >= 2:
-            a = float(np.trapezoid(yy[m], x[m])) if hasattr(np, "trapezoid") else float(
-                np.trapz(yy[m], x[m]))
-        else:
-            a = float(yy[i])
-        pos.append(float(x[i]))
-        area.append(max(a, 1e-300))
-        s_n.append(float(yy[i] / noise))
-    return np.array(pos), np.array(area), np.array(s_n), noise
+    lo, hi = region
+    pad = 5.0 * halfwidth + 1.0
+    x = spectrum.x
+    window = (max(float(x.min()), lo - pad), min(float(x.max()), hi + pad))
+    if window[1] <= window[0]:
+        return np.array([]), np.array([]), np.array([]), None
+    peaks = pick_peaks(spectrum, snr=snr, prominence=prominence, region=window)
+    if len(peaks) == 0:
+        return np.array([]), np.array([]), np.array([]), peaks.diagnostics.get("noise")
+    ints = integrate(spectrum, peaks, half_width=halfwidth, baseline="arpls")
+    area = np.maximum(np.asarray(ints.integrals, float), 1e-300)
+    return (np.asarray(peaks.positions, float), area, np.asarray(peaks.snr, float),
+            peaks.diagnostics.get("noise"))
 
 
 # --------------------------------------------------------------------- compare
