@@ -60,7 +60,8 @@ MAX_CHARGE = 4
 # fmt: off
 # (mass number, atomic mass in u, atom fraction)
 # masses: AME2020 (Wang et al., Chin. Phys. C 45, 030003, 2021)
-# fractions: IUPAC/CIAAW 2013 representative compositions (Meija et al., Pure Appl. Chem. 88, 293, 2016)
+# fractions: IUPAC/CIAAW 2013 representative compositions
+#   (Meija et al., Pure Appl. Chem. 88, 293, 2016)
 _TABLE: dict[str, tuple[tuple[int, float, float], ...]] = {
     "H":  ((1, 1.00782503223, 0.999885), (2, 2.01410177812, 0.000115)),
     "Li": ((6, 6.0151228874, 0.0759), (7, 7.0160034366, 0.9241)),
@@ -454,7 +455,7 @@ def isotope_envelope(
             part = _element_agg(e, counts[e], c)
             acc = part if acc is None else _conv2(acc, part)
         prob, w, off = acc
-        keep = prob >= threshold
+        keep = (prob >= threshold) & (prob > 0)
         m = w[keep] / prob[keep]
         p = prob[keep]
         nominal = np.flatnonzero(keep) + off
@@ -512,7 +513,7 @@ def envelope_profile(
     else:
         x = np.asarray(mz, dtype=float)
     y = np.zeros_like(x)
-    for c, a in zip(centres, amps):
+    for c, a in zip(centres, amps, strict=False):
         sigma = c / resolving_power / 2.3548200450309493
         lo, hi = np.searchsorted(x, [c - 6 * sigma, c + 6 * sigma])
         xs = x[lo:hi]

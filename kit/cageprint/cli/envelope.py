@@ -33,12 +33,12 @@ def run(args) -> int:
     keep = rel >= args.min_rel
     if args.csv:
         print("mz,relative_abundance")
-        for m, r in zip(env.mz[keep], rel[keep]):
+        for m, r in zip(env.mz[keep], rel[keep], strict=False):
             print(f"{m:.6f},{r:.6g}")
         return 0
     print(f"# {env.formula} charge {z:+d}, 13C fraction {env.c13:g}, "
           f"{'fine structure' if env.fine else 'aggregated at nominal mass'}")
     print(f"{'mz':>14}  relative_abundance")
-    for m, r in zip(env.mz[keep], rel[keep]):
+    for m, r in zip(env.mz[keep], rel[keep], strict=False):
         print(f"{m:14.6f}  {r:.6f}")
     return 0

@@ -69,9 +69,9 @@ def run(args) -> int:
             print(",".join(r))
         return 0
     widths = [max(len(c), *(len(r[i]) for r in rows)) for i, c in enumerate(COLUMNS)]
-    print("  ".join(c.ljust(w) for c, w in zip(COLUMNS, widths)))
+    print("  ".join(c.ljust(w) for c, w in zip(COLUMNS, widths, strict=False)))
     for r in rows:
-        print("  ".join(v.ljust(w) for v, w in zip(r, widths)))
+        print("  ".join(v.ljust(w) for v, w in zip(r, widths, strict=False)))
     cal = d["calibration"]
     print(f"# {len(rows)} species; calibration offset {d['calibration_offset']:+.4f} m/z "
           f"({cal}); {d['n_peaks']} peaks, {len(d['unexplained_envelopes'])} unexplained "

@@ -129,7 +129,7 @@ def synthetic_mass_spectrum(
         points = int(min(MAX_POINTS, max(1000, (hi - lo) / step)))
     x = np.linspace(lo, hi, int(points))
     y = np.zeros_like(x)
-    for m, a in zip(lmz, la):
+    for m, a in zip(lmz, la, strict=False):
         sigma = m / resolving_power * _FWHM_TO_SIGMA
         i0, i1 = np.searchsorted(x, [m - 7 * sigma, m + 7 * sigma])
         xs = x[i0:i1]
