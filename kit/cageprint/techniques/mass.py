@@ -26,6 +26,7 @@ from ..isotopes import (
     C13_NATURAL,
     ISOTOPES,
     Envelope,
+    _check_charge,
     _principal,
     fit_c13,
     isotope_envelope,
@@ -842,7 +843,7 @@ def predict_mass(item, charge: int = 1, *, c13: float | None = None) -> Envelope
     >>> env.formula, round(float(env.base_mz), 3)
     ('La@C82', 1122.906)
     """
-    return isotope_envelope(_as_formula(item), charge, c13=c13)
+    return isotope_envelope(_as_formula(item), _check_charge(charge), c13=c13)
 
 
 def compare_mass(predicted, observed: MassObservation, *, c13=None,
