@@ -18,6 +18,8 @@ from ...errors import SpectrumFormatError
 from ..model import Spectrum
 from ._common import BYTES_SOURCE, MAX_POINTS, check_binary
 from .delimited import parse_delimited, parse_peaklist, sniff_delimited
+from .jcamp import jcamp_blocks, parse_jcamp, sniff_jcamp
+from .mzml import mzml_blocks, parse_mzml, sniff_mzml
 
 __all__ = [
     "READERS",
@@ -30,6 +32,12 @@ __all__ = [
     "parse_peaklist",
     "read_csv",
     "read_peaklist",
+    "parse_jcamp",
+    "read_jcamp",
+    "jcamp_blocks",
+    "parse_mzml",
+    "read_mzml",
+    "mzml_blocks",
     "MAX_POINTS",
     "SNIFF_BYTES",
 ]
@@ -217,6 +225,16 @@ def read_csv(path: str | os.PathLike, **options: Any) -> Spectrum:
     return load_spectrum(path, format="delimited", **options)
 
 
+def read_jcamp(path: str | os.PathLike, **options: Any) -> Spectrum:
+    """Read a JCAMP-DX file from disk (thin wrapper of :func:`parse_jcamp`)."""
+    return load_spectrum(path, format="jcamp", **options)
+
+
+def read_mzml(path: str | os.PathLike, **options: Any) -> Spectrum:
+    """Read an mzML file from disk (thin wrapper of :func:`parse_mzml`)."""
+    return load_spectrum(path, format="mzml", **options)
+
+
 def read_peaklist(path: str | os.PathLike, **options: Any) -> Spectrum:
     """Read a peak-list file from disk (thin wrapper of :func:`parse_peaklist`)."""
     return load_spectrum(path, format="peaklist", **options)
@@ -226,4 +244,9 @@ register_reader(
     "delimited", parse_delimited, sniff=sniff_delimited,
     extensions=(".csv", ".tsv", ".txt", ".dat", ".xy", ".asc"),
 )
+register_reader(
+    "jcamp", parse_jcamp, sniff=sniff_jcamp, extensions=(".jdx", ".dx", ".jcamp", ".jcm"),
+    blocks=jcamp_blocks,
+)
+register_reader("mzml", parse_mzml, sniff=sniff_mzml, extensions=(".mzml",), blocks=mzml_blocks)
 register_reader("peaklist", parse_peaklist, extensions=(".peaks", ".peaklist"))
