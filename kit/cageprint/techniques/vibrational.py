@@ -205,11 +205,21 @@ def observe_vibrational(
     if spectrum.kind == "peaks":
         pos, hts = x, y
     else:
+        from ..spectra import pick_peaks
+
+        spec = spectrum
         if "trans" in str(getattr(spectrum, "y_unit", "")).lower():
-            y = float(np.max(y)) - y
+            spec = spectrum.replace(y=float(np.max(y)) - y, y_unit="absorption-like")
             diagnostics["inverted"] = "transmittance turned into absorption-like bands"
-        pos, hts, noise = find_bands(x, y, snr, prominence, min_separation)
-        diagnostics["noise"] = noise
+        pad = 2.0 * min_separation
+        window = (max(float(x.min()), lo - pad), min(float(x.max()), hi + pad))
+        if window[1] > window[0]:
+            peaks = pick_peaks(spec, snr=snr, prominence=prominence,
+                               min_separation=min_separation, region=window)
+            pos, hts = np.asarray(peaks.positions), np.asarray(peaks.heights)
+            diagnostics["noise"] = peaks.diagnostics.get("noise")
+        else:
+            pos, hts = np.array([]), np.array([])
     keep_p, keep_h, excluded = [], [], []
     for p, h in zip(pos, hts, strict=False):
         if not lo <= p <= hi:
