@@ -186,15 +186,30 @@ def test_axis_labels_agree_with_frame(seed):
 
 
 def test_weights_choose_the_axis_labels():
-    # documented rule: the heavier class gets the earlier label; ties go to input order
+    # documented rule: in C2v the mirror leaving more atoms in place is σv'(yz), x perpendicular
+    # to the plane of most atoms (R. S. Mulliken, J. Chem. Phys. 23, 1997 (1955)); ties go to
+    # input order
     ops, _ = oriented_group("C2v", 5)
     mirrors = [j for j in range(4) if np.linalg.det(ops[j]) < 0]
-    w = np.zeros(4)
-    w[mirrors[1]] = 4.0
-    m = identify_point_group(ops, weights=w)
-    assert m.table.classes[m.op_class[mirrors[1]]] == "σv(xz)"
+    for heavy in mirrors:
+        w = np.zeros(4)
+        w[heavy] = 4.0
+        m = identify_point_group(ops, weights=w)
+        assert m.table.classes[m.op_class[heavy]] == "σv'(yz)"
     m = identify_point_group(ops)
     assert m.table.classes[m.op_class[mirrors[0]]] == "σv(xz)"
+    # D2h: σ(yz) is the heaviest mirror, then C2(z) the heavier of the two axes left
+    ops, _ = oriented_group("D2h", 5)
+    mir = [j for j in range(8) if np.linalg.det(ops[j]) < 0 and np.trace(ops[j]) > 0.5]
+    c2 = [j for j in range(8) if np.linalg.det(ops[j]) > 0 and np.trace(ops[j]) < -0.5]
+    w = np.zeros(8)
+    w[mir[2]] = 6.0
+    normal = np.linalg.eigh(np.eye(3) - ops[mir[2]])[1][:, -1]
+    in_plane = [j for j in c2 if abs(np.linalg.eigh(ops[j] + np.eye(3))[1][:, -1] @ normal) < .1]
+    w[in_plane[1]] = 2.0
+    m = identify_point_group(ops, weights=w)
+    assert m.table.classes[m.op_class[mir[2]]] == "σ(yz)"
+    assert m.table.classes[m.op_class[in_plane[1]]] == "C2(z)"
 
 
 # ----------------------------------------------------------------------------- C60

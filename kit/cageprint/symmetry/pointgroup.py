@@ -328,18 +328,28 @@ def identify_point_group(ops, tol: float = SYMMETRY_TOL, weights=None) -> PointG
     D2h, the two mirrors of C2v, C2' against C2'' in D6 and D6h, and the
     C3/C3^2-type pairs of the separably degenerate groups, whose columns are
     equal) every labelling consistent with the one-dimensional characters is
-    a valid answer.  The one returned gives, in table column order, the
-    classes with the larger ``weights`` the earlier label (C2(z) before C2(y),
-    σv(xz) before σv'(yz), σ(xy) before σ(xz), C2' before C2''); ties go to
-    the class holding the operation that comes first in ``ops``.  With
-    ``weights`` = atoms left in place, Γ(3N) and the counts derived from it
-    therefore do not depend on the atom numbering or the order of ``ops``.
+    a valid answer.  The one returned follows ``weights`` (normally the number
+    of atoms each operation leaves in place): in C2v the mirror with the
+    larger weight is σv'(yz), so x is perpendicular to the plane holding more
+    atoms; in D2h likewise σ(yz), then C2(z) is the heavier remaining axis;
+    in D2 C2(z), then C2(y), are the heavier axes; in D6 and D6h C2' is the
+    heavier class (axes through atoms), then σv in D6h (planar-molecule
+    conventions of Mulliken 1955; C2' through atoms as for benzene in
+    Cotton's tables).  Ties go to the class holding the operation that comes
+    first in ``ops``, in table column order.  With ``weights`` = atoms left
+    in place, Γ(3N) and every count derived from it therefore do not depend
+    on the atom numbering or on the order of ``ops``.
 
     The frame: z is the principal axis (the Cn axis of highest order; the S4
     axis of S4 and D2d; the C2(z) axis of D2 and D2h; the mirror normal of Cs;
     one C2 axis in T, Td, Th, I and Ih), x is a C2' axis (Dn, Dnh, Dnd), the
     C2(x) axis (D2, D2h), the σv(xz) line (Cnv) or another C2 axis (cubic and
     icosahedral groups), otherwise a fixed perpendicular.
+
+    References
+    ----------
+    R. S. Mulliken, "Report on notation for the spectra of polyatomic
+    molecules", J. Chem. Phys. 23, 1997-2011 (1955).
 
     Examples
     --------
@@ -416,12 +426,26 @@ def identify_point_group(ops, tol: float = SYMMETRY_TOL, weights=None) -> PointG
                            multiplication=mult, inverse=inv, tol=tol)
 
 
+# Columns that take the class with the larger weight (atoms left in place), in priority order.
+# C2v and D2h follow the recommendation for planar molecules (x perpendicular to the plane
+# holding most atoms, z through most atoms): R. S. Mulliken, J. Chem. Phys. 23, 1997 (1955).
+# D6 and D6h: the C2' axes pass through atoms, as in Cotton's D6h tables (benzene).
+_HEAVY_FIRST = {
+    "C2v": ("σv'(yz)",),
+    "D2h": ("σ(yz)", "C2(z)", "C2(y)"),
+    "D2": ("C2(z)", "C2(y)"),
+    "D6": ("3C2'",),
+    "D6h": ("3C2'", "3σv"),
+}
+
+
 def _settle(table, assign, free, cls_of_op, mult, cw, first, symbol):
     """Choose among the labellings left open by the table (see Notes above)."""
     one_d = [i for i, (r, d) in enumerate(zip(table.irreps, table.dims, strict=True))
              if d == 1 and r not in table.separable]
     chars = table.characters
     order_cols = sorted(t for tcols, _ in free for t in tcols)
+    heavy_cols = [table.classes.index(c) for c in _HEAVY_FIRST.get(symbol, ())]
     best = None
     for perms in itertools.product(*(itertools.permutations(c) for _, c in free)):
         cand = assign.copy()
@@ -438,7 +462,8 @@ def _settle(table, assign, free, cls_of_op, mult, cw, first, symbol):
                 break
         if not ok:
             continue
-        key = (tuple(-cw[cand[t]] for t in order_cols), tuple(first[cand[t]] for t in order_cols))
+        key = (tuple(-cw[cand[t]] for t in heavy_cols),
+               tuple(first[cand[t]] for t in order_cols))
         if best is None or key < best[0]:
             best = (key, cand)
     if best is None:  # pragma: no cover - a group that passed the class count always fits
