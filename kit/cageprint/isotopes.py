@@ -22,6 +22,7 @@ centroid mass; *fine* envelopes keep every isotopologue above a threshold.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import lru_cache
 from types import MappingProxyType
@@ -225,33 +226,40 @@ def neutral_mass(mz, charge: int):
 # ---------------------------------------------------------------- aggregated
 
 
-def _binomial_agg(n: int, m0: float, m1: float, p: float) -> tuple[np.ndarray, np.ndarray]:
-    """Probabilities and probability-weighted masses of k heavy atoms, k = 0..n."""
+def _binomial_agg(n: int, m0: float, m1: float, p: float):
+    """Probabilities and probability-weighted masses of k heavy atoms.
+
+    Returns (prob, weighted mass, k of index 0); tails below 1e-16 of the
+    largest term are dropped.
+    """
     if p <= 0.0:
-        return np.array([1.0]), np.array([n * m0])
+        return np.array([1.0]), np.array([n * m0]), 0
     if p >= 1.0:
-        prob = np.zeros(n + 1)
-        prob[n] = 1.0
-        return prob, prob * (n * m1)
+        return np.array([1.0]), np.array([n * m1]), n
     q = 1.0 - p
-    mean, sd = n * p, np.sqrt(n * p * q)
-    lo = max(0, int(mean - 40.0 * sd - 40))
-    hi = min(n, int(mean + 40.0 * sd + 40))
-    k = np.arange(lo, hi + 1, dtype=float)
-    logp = gammaln(n + 1.0) - gammaln(k + 1.0) - gammaln(n - k + 1.0) + k * np.log(p) + (
-        n - k
-    ) * np.log(q)
-    prob = np.exp(logp)
-    keep = prob > _PRUNE * prob.max()
-    first, last = np.flatnonzero(keep)[[0, -1]]
-    prob = prob[first : last + 1]
-    k = k[first : last + 1]
-    full = np.zeros(hi + 1)
-    wfull = np.zeros(hi + 1)
-    idx = k.astype(int)
-    full[idx] = prob
-    wfull[idx] = prob * ((n - k) * m0 + k * m1)
-    return full, wfull
+    if n == 1:
+        prob = np.array([q, p])
+        return prob, prob * np.array([m0, m1]), 0
+    kmax = min(n, int(n * p + 12.0 * math.sqrt(n * p * q) + 15))
+    if kmax < 200 and n * math.log(q) > -600.0:
+        # recurrence P(k+1) / P(k) = (n - k) / (k + 1) * p / q, in plain floats (short lists)
+        r = p / q
+        terms = [q**n]
+        for j in range(kmax):
+            terms.append(terms[-1] * (n - j) / (j + 1) * r)
+        cut = _PRUNE * max(terms)
+        s = 0
+        while terms[s] <= cut:
+            s += 1
+        prob = np.array(terms[s:])
+        k = np.arange(s, kmax + 1, dtype=float)
+    else:
+        k = np.arange(kmax + 1, dtype=float)
+        prob = np.exp(gammaln(n + 1.0) - gammaln(k + 1.0) - gammaln(n - k + 1.0)
+                      + k * np.log(p) + (n - k) * np.log(q))
+        s = int(np.argmax(prob > _PRUNE * prob.max()))
+        prob, k = prob[s:], k[s:]
+    return prob, prob * (n * m0 + k * (m1 - m0)), s
 
 
 def _conv2(a, b):
@@ -272,10 +280,8 @@ def _element_agg(element: str, n: int, c13: float):
     if len(iso) == 1:
         return np.array([1.0]), np.array([n * iso[0][1]]), n * a0
     if len(iso) == 2 and iso[1][0] - a0 == 1:
-        prob, w = _binomial_agg(n, iso[0][1], iso[1][1], iso[1][2])
-        nz = np.flatnonzero(prob)
-        s = nz[0]
-        return prob[s:], w[s:], n * a0 + s
+        prob, w, s = _binomial_agg(n, iso[0][1], iso[1][1], iso[1][2])
+        return prob, w, n * a0 + s
     span = iso[-1][0] - a0
     p1 = np.zeros(span + 1)
     w1 = np.zeros(span + 1)
@@ -304,8 +310,8 @@ def _element_fine(element: str, n: int, c13: float, floor: float):
     if len(iso) == 1:
         return np.array([n * masses[0]]), np.array([1.0])
     if len(iso) == 2:
-        prob, _ = _binomial_agg(n, masses[0], masses[1], probs[1])
-        k = np.arange(prob.size)
+        prob, _, s = _binomial_agg(n, masses[0], masses[1], probs[1])
+        k = np.arange(prob.size) + s
         keep = prob > floor
         return ((n - k) * masses[0] + k * masses[1])[keep], prob[keep]
 
@@ -391,7 +397,8 @@ class Envelope:
 
 
 def _ro(a: np.ndarray, dtype=float) -> np.ndarray:
-    a = np.ascontiguousarray(a, dtype=dtype)
+    if a.dtype != dtype or not a.flags.c_contiguous:
+        a = np.ascontiguousarray(a, dtype=dtype)
     a.setflags(write=False)
     return a
 
@@ -455,10 +462,13 @@ def isotope_envelope(
             part = _element_agg(e, counts[e], c)
             acc = part if acc is None else _conv2(acc, part)
         prob, w, off = acc
-        keep = (prob >= threshold) & (prob > 0)
-        m = w[keep] / prob[keep]
-        p = prob[keep]
-        nominal = np.flatnonzero(keep) + off
+        keep = prob >= max(threshold, 1e-300)
+        if keep.all():
+            m, p = w / prob, prob.copy()
+            nominal = np.arange(off, off + prob.size, dtype=np.int64)
+        else:
+            m, p = w[keep] / prob[keep], prob[keep]
+            nominal = np.flatnonzero(keep) + off
     if z:
         m = (m - z * ELECTRON_MASS) / abs(z)
     return Envelope(
