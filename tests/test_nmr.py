@@ -270,3 +270,15 @@ def test_c70_estimate_puts_equatorial_belt_upfield():
     assert sorted(sticks.heights) == [10, 10, 10, 20, 20]
     assert sticks.heights[-1] == 10
     assert list(sticks.positions) == sorted(sticks.positions, reverse=True)
+
+
+def test_solvent_lines_are_excluded_by_name():
+    # Fulmer et al., Organometallics 2010: toluene-d8 13C lines 137.48, 128.87, 127.96,
+    # 125.13 ppm fall inside the cage region and must not count as cage lines
+    s = Spectrum([150.07, 147.52, 146.82, 144.77, 130.28, 137.48, 128.87, 127.96, 125.13],
+                 [10, 10, 20, 20, 10, 30, 30, 30, 30], technique="nmr", kind="peaks")
+    obs = observe_nmr(s, solvent="toluene-d8")
+    assert obs.positions == (130.28, 144.77, 146.82, 147.52, 150.07)
+    assert len(obs.excluded) == 4
+    with pytest.raises(SpectrumError, match="unknown solvent 'slime'"):
+        observe_nmr(s, solvent="slime")

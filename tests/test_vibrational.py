@@ -97,7 +97,7 @@ def test_profile_bands_counted_and_artefacts_excluded():
 def test_transmittance_is_turned_upside_down():
     # common practice, no source: IR bands are dips in a transmittance trace
     bands = [(527, 0.5), (577, 0.2), (1183, 0.15), (1429, 0.2)]
-    obs = observe_ir(_ir_profile(bands, transmittance=True), exclude=[])
+    obs = observe_ir(_ir_profile(bands, transmittance=True))
     np.testing.assert_allclose(obs.positions, C60_IR, atol=1.0)
     assert "inverted" in obs.diagnostics
 
@@ -105,7 +105,7 @@ def test_transmittance_is_turned_upside_down():
 def test_raman_default_region_and_errors():
     s = Spectrum([100.0, 273.0, 497.0, 1469.0, 1575.0], [1, 1, 1, 1, 1], technique="raman",
                  kind="peaks")
-    obs = observe_raman(s, exclude=[])
+    obs = observe_raman(s)
     assert obs.positions == (273.0, 497.0, 1469.0, 1575.0)
     assert VibrationalObservation.from_dict(obs.to_dict()) == obs
     with pytest.raises(SpectrumError, match="observe_vibrational needs an IR or Raman "
@@ -141,3 +141,15 @@ def test_c60_ir_four_bands_and_one_nmr_line_put_ih_first_of_1812():
     # IR alone also keeps Ih first: every other isomer allows more bands than it shows
     s.set_weight("nmr", 0.0)
     assert [row.candidate.point_group for row in s.ranking.top()] == ["Ih"]
+
+
+def test_atmospheric_windows_only_on_request():
+    # the water-vapour window of the reference table covers the C60 band at 1429 cm-1
+    # (Krätschmer et al., Nature 1990), so it is not applied by default
+    s = Spectrum(C60_IR, [1.0, 0.4, 0.3, 0.35], technique="ir", kind="peaks")
+    assert observe_ir(s).n_bands == 4
+    obs = observe_ir(s, exclude="atmospheric")
+    assert obs.positions == (527.0, 577.0, 1183.0)
+    assert obs.excluded[0]["reason"].startswith("artefact region 1300-2000 cm-1 (water vapour")
+    with pytest.raises(SpectrumError, match="exclude must be 'atmospheric' or a list"):
+        observe_ir(s, exclude="air")

@@ -159,26 +159,12 @@ class NmrObservation:
 
 
 def _solvent_lines(solvent: str | None) -> tuple[float, ...]:
+    """13C lines of a solvent (or ``"CS2 + C6D6"`` mixture) from the reference table."""
     if not solvent:
         return ()
-    try:
-        from ..spectra import references as refs  # issue 4's table of solvent lines
-    except ImportError:  # pragma: no cover - references not available
-        raise EvidenceError(f"solvent={solvent!r}: no solvent table is available; "
-                            "pass reference_lines=[ppm, ...] instead") from None
-    for name in ("solvent_lines", "solvent_13c_lines", "solvent_shifts"):
-        fn = getattr(refs, name, None)
-        if callable(fn):
-            return tuple(float(v) for v in fn(solvent))
-    table = getattr(refs, "SOLVENT_13C", None)
-    if isinstance(table, Mapping):
-        for k, v in table.items():
-            if str(k).lower() == solvent.lower():
-                return tuple(float(x) for x in (v if isinstance(v, Sequence) else [v]))
-        raise EvidenceError(f"solvent={solvent!r} is not in the solvent table; known: "
-                            f"{', '.join(sorted(map(str, table)))}")
-    raise EvidenceError(f"solvent={solvent!r}: no solvent table is available; "
-                        "pass reference_lines=[ppm, ...] instead")
+    from ..spectra import reference_lines
+
+    return tuple(float(ppm) for ppm, _carbon, _name in reference_lines(solvent))
 
 
 def observe_nmr(

@@ -99,23 +99,12 @@ class VibrationalObservation:
 
 
 def _artefact_regions(technique: str) -> tuple[tuple[float, float, str], ...]:
-    """Artefact windows from :mod:`cageprint.spectra.references`, if it offers them."""
-    try:
-        from ..spectra import references as refs
-    except ImportError:
+    """The atmospheric windows of :data:`cageprint.spectra.references.IR_ARTEFACTS`."""
+    if technique != "ir":
         return ()
-    for name in ("artefact_regions", "ir_artefact_regions", "artifact_regions"):
-        fn = getattr(refs, name, None)
-        if callable(fn):
-            try:
-                regions = fn(technique)
-            except TypeError:
-                regions = fn()
-            return tuple(_region_tuple(r) for r in regions)
-    table = getattr(refs, "IR_ARTEFACTS", None)
-    if table is not None and technique == "ir":
-        return tuple(_region_tuple(r) for r in table)
-    return ()
+    from ..spectra.references import IR_ARTEFACTS
+
+    return tuple(_region_tuple(r) for r in IR_ARTEFACTS)
 
 
 def _region_tuple(r: Any) -> tuple[float, float, str]:
@@ -152,7 +141,7 @@ def observe_vibrational(
     spectrum: Any,
     *,
     region: tuple[float, float] | None = None,
-    exclude: Sequence[Sequence[Any]] | None = None,
+    exclude: Sequence[Sequence[Any]] | str = (),
     snr: float = BAND_SNR,
     prominence: float | None = None,
     min_separation: float = BAND_MIN_SEPARATION,
@@ -166,9 +155,11 @@ def observe_vibrational(
         transmittance trace is turned upside down first) or a band list.
     region : (low, high) cm-1, optional
         Defaults to :data:`IR_REGION` or :data:`RAMAN_REGION`.
-    exclude : sequence of (low, high[, reason]), optional
-        Artefact windows to ignore; default: those of
-        :mod:`cageprint.spectra.references` for the technique, if any.
+    exclude : sequence of (low, high[, reason]) or "atmospheric"
+        Artefact windows whose bands are ignored.  Default none: the
+        atmospheric windows of :data:`cageprint.spectra.references.IR_ARTEFACTS`
+        overlap real cage bands (the water-vapour window covers the C60 band
+        at 1429 cm-1), so ``"atmospheric"`` excludes them only when asked.
     snr, prominence, min_separation : float
         Band-picking thresholds for profiles.
 
@@ -181,7 +172,7 @@ def observe_vibrational(
     >>> from cageprint.spectra import Spectrum
     >>> s = Spectrum([527, 577, 1183, 1429, 2350], [1, .4, .3, .35, .2], technique="ir",
     ...              kind="peaks")
-    >>> obs = observe_vibrational(s, exclude=[])
+    >>> obs = observe_vibrational(s)
     >>> obs.n_bands, obs.excluded[0]["reason"]
     (4, 'outside the region 400-1650 cm-1')
     """
@@ -194,8 +185,13 @@ def observe_vibrational(
     lo, hi = float(min(region)), float(max(region))
     if not hi > lo:
         raise SpectrumError(f"region must span a range of cm-1; got {region!r}")
-    windows = (_artefact_regions(tech) if exclude is None
-               else tuple(_region_tuple(r) for r in exclude))
+    if isinstance(exclude, str):
+        if exclude != "atmospheric":
+            raise SpectrumError(f"exclude must be 'atmospheric' or a list of (low, high) "
+                                f"windows; got {exclude!r}")
+        windows = _artefact_regions(tech)
+    else:
+        windows = tuple(_region_tuple(r) for r in exclude)
     x = np.asarray(spectrum.x, float)
     y = np.asarray(spectrum.y, float)
     diagnostics: dict[str, Any] = {"kind": spectrum.kind}
