@@ -329,12 +329,19 @@ def _transition_energies(elec: Any) -> tuple[float, ...]:
     return tuple(sorted(out))
 
 
-def mass_verdict(candidate: Candidate, observation: Any) -> TechniqueVerdict:
+#: a species below this relative abundance is "minor" (its cage only "possible")
+MASS_MINOR_ABUNDANCE = 0.1
+
+
+def mass_verdict(candidate: Candidate, observation: Any, *,
+                 minor_abundance: float = MASS_MINOR_ABUNDANCE) -> TechniqueVerdict:
     """Mass evidence: the cage sizes (and cage charges) found fix ``n``.
 
     ``observation`` is a mass observation with ``.species`` (items with
-    ``cage_n`` and optionally ``cage_charge``, ``formula``), or a plain
-    iterable of cage sizes.
+    ``cage_n`` and optionally ``cage_charge``, ``formula``, ``kind``,
+    ``relative_abundance``), or a plain iterable of cage sizes.  Fragment
+    ions do not vouch for a cage; a species weaker than ``minor_abundance``
+    (relative to the strongest) makes its cage only "possible".
 
     Examples
     --------
@@ -343,41 +350,54 @@ def mass_verdict(candidate: Candidate, observation: Any) -> TechniqueVerdict:
     ('consistent', 'ruled out')
     """
     species = getattr(observation, "species", observation)
-    found: list[tuple[int, int | None, str]] = []
+    found: list[tuple[int, int | None, str, str, float]] = []
     for sp in species or ():
         if isinstance(sp, (int, float)):
-            found.append((int(sp), None, f"C{int(sp)}"))
+            found.append((int(sp), None, f"C{int(sp)}", "cage", 1.0))
             continue
         cn = getattr(sp, "cage_n", None)
         if cn is None:
             continue
         found.append((int(cn), getattr(sp, "cage_charge", None),
-                      str(getattr(sp, "formula", f"C{int(cn)}"))))
+                      str(getattr(sp, "formula", f"C{int(cn)}")),
+                      str(getattr(sp, "kind", "cage")),
+                      float(getattr(sp, "relative_abundance", 1.0))))
     if not found:
         return TechniqueVerdict("mass", 0.0, "no data",
                                 ("the mass spectrum shows no cage species.",))
-    sizes = sorted({f[0] for f in found})
-    names = ", ".join(sorted({f[2] for f in found}))
-    if candidate.n not in sizes:
+    intact = [f for f in found if f[3] != "fragment"]
+    sizes = sorted({f[0] for f in intact})
+    names = ", ".join(sorted({f[2] for f in intact})) or "fragments only"
+    details = {"cage_sizes": sizes, "fragments": sorted({f[2] for f in found} -
+                                                        {f[2] for f in intact})}
+    mine = [f for f in intact if f[0] == candidate.n]
+    if not mine:
+        frag = [f for f in found if f[0] == candidate.n]
+        if frag:
+            return TechniqueVerdict(
+                "mass", -6.0, "unlikely",
+                (f"mass spectrum shows {names}; a {candidate.n}-carbon cage appears only as "
+                 "a fragment ion.",), details)
         return TechniqueVerdict(
             "mass", RULED_OUT_SCORE, "ruled out",
-            (f"mass spectrum shows {names}; none has a {candidate.n}-carbon cage.",),
-            {"cage_sizes": sizes},
-        )
-    charges = {f[1] for f in found if f[0] == candidate.n and f[1] is not None}
+            (f"mass spectrum shows {names}; none has a {candidate.n}-carbon cage.",), details)
+    charges = {f[1] for f in mine if f[1] is not None}
     if charges and candidate.cage_charge not in charges:
         return TechniqueVerdict(
             "mass", -6.0, "unlikely",
             (f"mass spectrum shows a C{candidate.n} cage carrying charge "
              f"{', '.join(str(c) for c in sorted(charges))}, the candidate is built "
              f"for {candidate.cage_charge}.",),
-            {"cage_sizes": sizes, "cage_charges": sorted(charges)},
-        )
+            {**details, "cage_charges": sorted(charges)})
+    strongest = max(f[4] for f in mine)
+    if strongest < minor_abundance:
+        return TechniqueVerdict(
+            "mass", -2.0, "possible",
+            (f"mass spectrum shows {names}; the {candidate.n}-carbon cage is a minor species "
+             f"({100 * strongest:.0f} % of the strongest).",), details)
     return TechniqueVerdict(
         "mass", 0.0, "consistent",
-        (f"mass spectrum shows {names}: a {candidate.n}-carbon cage is present.",),
-        {"cage_sizes": sizes},
-    )
+        (f"mass spectrum shows {names}: a {candidate.n}-carbon cage is present.",), details)
 
 
 @dataclass(frozen=True)

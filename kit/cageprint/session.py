@@ -278,7 +278,10 @@ class Session:
 
     def _formula_from_mass(self) -> None:
         obs = self.observation("mass")
-        for sp in getattr(obs, "species", ()) or ():
+        species = [sp for sp in getattr(obs, "species", ()) or ()
+                   if getattr(sp, "kind", "cage") != "fragment"]
+        species.sort(key=lambda sp: -float(getattr(sp, "relative_abundance", 0.0)))
+        for sp in species:
             cn = getattr(sp, "cage_n", None)
             if cn:
                 formula = str(getattr(sp, "formula", f"C{cn}"))

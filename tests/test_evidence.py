@@ -1,0 +1,167 @@
+"""Ranking: weights, shared ranks for ties, ruled-out candidates kept, no-data marking."""
+
+from __future__ import annotations
+
+from types import SimpleNamespace
+
+import pytest
+
+from cageprint.errors import EvidenceError
+from cageprint.evidence import (
+    DEFAULT_WEIGHTS,
+    Candidate,
+    Ranking,
+    TechniqueVerdict,
+    mass_verdict,
+    no_data,
+    rank,
+    verdicts_by_signature,
+)
+
+
+def cand(isomer, sizes=(4,) * 19, pg="D2", ir=10, n=76, gap=0.3):
+    return Candidate(f"C{n}", n, isomer, pg, sizes, ir, 2 * ir, gap)
+
+
+def v(t, score, verdict="consistent", *reasons):
+    return TechniqueVerdict(t, score, verdict, reasons or (f"{t} says {verdict}.",))
+
+
+def test_shared_ranks_competition_style_and_tie_reason():
+    # common practice, no source: equal evidence gives an equal rank ("1, 1, 3")
+    a, b, c = cand(3), cand(5), cand(1, sizes=(6,) * 13, pg="D3")
+    r = rank([c, b, a], {"nmr": [v("nmr", -9.0, "unlikely"), v("nmr", -1.0), v("nmr", -1.0)]})
+    assert [(row.rank, row.candidate.isomer) for row in r] == [(1, 3), (1, 5), (3, 1)]
+    assert r.rows[0].tie_reason == "tied with isomer 5: same NMR pattern (19x4)"
+    assert r.rows[1].tie_reason == "tied with isomer 3: same NMR pattern (19x4)"
+    assert r.rows[2].tie_reason == ""
+    assert [row.candidate.isomer for row in r.top()] == [3, 5]
+
+
+def test_ties_within_tolerance_but_different_fingerprints_say_so():
+    a, b = cand(1), cand(2, sizes=(6,) * 13)
+    r = rank([a, b], {"nmr": [v("nmr", -1.0), v("nmr", -1.0 + 1e-9)]})
+    assert [row.rank for row in r] == [1, 1]
+    assert r.rows[0].tie_reason == "tied with isomer 2: overall scores equal within 1e-06"
+    r = rank([a, b], {"nmr": [v("nmr", -1.0), v("nmr", -1.1)]})
+    assert [row.rank for row in r] == [1, 2]
+
+
+def test_tie_order_does_not_depend_on_input_order():
+    # never broken arbitrarily: both orders give the same shared rank
+    a, b = cand(7), cand(2)
+    r1 = rank([a, b], {"ir": [v("ir", -0.5), v("ir", -0.5)]})
+    r2 = rank([b, a], {"ir": [v("ir", -0.5), v("ir", -0.5)]})
+    assert r1 == r2
+    assert {row.rank for row in r1} == {1}
+
+
+def test_ruled_out_shown_last_not_hidden():
+    a, b, c = cand(1), cand(2), cand(3)
+    r = rank([a, b, c], {"ir": [v("ir", -60.0, "ruled out"), v("ir", -2.0, "possible"),
+                                v("ir", -3.0, "possible")],
+                         "nmr": [v("nmr", 0.0), v("nmr", -5.0), v("nmr", -5.0)]})
+    assert [row.candidate.isomer for row in r] == [2, 3, 1]
+    assert r.rows[-1].verdict == "ruled out" and r.rows[-1].rank == 3
+    assert len(r) == 3
+
+
+def test_no_data_techniques_are_marked_and_weights_visible():
+    a = cand(1)
+    r = rank([a], {"nmr": [v("nmr", -1.0)]})
+    assert r.with_data == ("nmr",)
+    assert r.rows[0].verdicts["raman"].verdict == "no data"
+    assert dict(r.weights) == dict(DEFAULT_WEIGHTS)
+    row = r.table()[0]
+    assert row["raman_verdict"] == "no data"
+    assert list(row)[:5] == ["rank", "formula", "isomer", "point_group", "score"]
+
+
+def test_weights_change_the_order_and_zero_removes_a_technique():
+    a, b = cand(1), cand(2)
+    vs = {"nmr": [v("nmr", 0.0), v("nmr", -1.0)], "ir": [v("ir", -3.0), v("ir", 0.0)]}
+    assert rank([a, b], vs).rows[0].candidate.isomer == 2
+    assert rank([a, b], vs, {"ir": 0.1}).rows[0].candidate.isomer == 1
+    # weight 0: IR cannot rule out
+    vs["ir"] = [v("ir", -60.0, "ruled out"), v("ir", 0.0)]
+    r = rank([a, b], vs, {"ir": 0.0})
+    assert r.rows[0].candidate.isomer == 1 and r.rows[0].verdict == "consistent"
+
+
+def test_errors_are_pinned():
+    a = cand(1)
+    with pytest.raises(EvidenceError, match="weights: unknown technique 'xrd'"):
+        rank([a], {}, {"xrd": 1})
+    with pytest.raises(EvidenceError, match=r"weights\['ir'\] must be a finite number >= 0"):
+        rank([a], {}, {"ir": -1})
+    with pytest.raises(EvidenceError, match=r"verdicts\['ir'\] has 2 entries for 1 candidates"):
+        rank([a], {"ir": [v("ir", 0), v("ir", 0)]})
+    with pytest.raises(EvidenceError, match="verdict must be one of .* got 'maybe'"):
+        TechniqueVerdict("ir", 0.0, "maybe")
+    with pytest.raises(EvidenceError, match="candidate record lacks the key 'n'"):
+        Candidate.from_dict({"formula": "C60"})
+    r = rank([a], {})
+    with pytest.raises(EvidenceError, match="isomer 9 is not among the 1 candidates"):
+        r.row(9)
+
+
+def test_round_trip_and_frame():
+    a, b = cand(1), cand(2, sizes=(6,) * 13, pg="D3")
+    r = rank([a, b], {"nmr": [v("nmr", -1.0, "consistent", "one", "two"),
+                              v("nmr", -4.0, "possible")]})
+    again = Ranking.from_dict(r.to_dict())
+    assert again == r
+    df = r.to_frame()
+    assert list(df.columns[:5]) == ["rank", "formula", "isomer", "point_group", "score"]
+    assert df["isomer"].tolist() == [1, 2]
+    assert df.loc[0, "reasons"] == "NMR: one NMR: two"
+
+
+def test_mass_fixes_n_and_cage_charge():
+    # common practice, no source: the molecular ion fixes the cage size; an endohedral
+    # cluster such as Sc3N transfers six electrons to the C80 cage (from memory)
+    c78 = cand(1, n=78, sizes=(6,) * 13, pg="D3")
+    sp = SimpleNamespace
+    obs = sp(species=(sp(formula="C78", cage_n=78, cage_charge=0, kind="cage",
+                         relative_abundance=1.0),
+                      sp(formula="C76", cage_n=76, cage_charge=0, kind="fragment",
+                         relative_abundance=0.3)))
+    assert mass_verdict(c78, obs).verdict == "consistent"
+    assert mass_verdict(cand(1), obs).verdict == "unlikely"          # C76 only a fragment
+    assert mass_verdict(cand(1, n=84), obs).verdict == "ruled out"
+    minor = sp(species=(sp(formula="C78", cage_n=78, cage_charge=0, kind="cage",
+                           relative_abundance=0.05),))
+    assert mass_verdict(c78, minor).verdict == "possible"
+    endo = sp(species=(sp(formula="Sc3N@C80", cage_n=80, cage_charge=6, kind="endohedral",
+                          relative_abundance=1.0),))
+    empty80 = Candidate("C80", 80, 7, "Ih", (60, 20))
+    charged80 = Candidate("Sc3N@C80", 80, 7, "Ih", (60, 20), cage_charge=6)
+    assert mass_verdict(empty80, endo).verdict == "unlikely"
+    assert mass_verdict(charged80, endo).verdict == "consistent"
+    assert mass_verdict(c78, sp(species=())).verdict == "no data"
+
+
+def test_verdicts_by_signature_computes_once_per_pattern():
+    cands = [cand(i) for i in range(1, 6)] + [cand(9, sizes=(6,) * 13)]
+    calls = []
+
+    def compare(c):
+        calls.append(c.isomer)
+        return v("nmr", -float(len(c.nmr_sizes)))
+
+    out = verdicts_by_signature("nmr", cands, compare)
+    assert calls == [1, 9]
+    assert out[0] is out[4]
+
+
+def test_candidate_from_fingerprint_shape():
+    fp = SimpleNamespace(
+        point_group="Ih", nmr=SimpleNamespace(sizes=(60,)),
+        vib=SimpleNamespace(ir_count=4, raman_count=10),
+        elec=SimpleNamespace(gap_beta=0.757, allowed_transitions=(("hu", "t1g", 1.0),
+                                                                  ("hg", "t1u", 0.9))))
+    c = Candidate.from_fingerprint(fp, n=60, isomer=1, formula="C60")
+    assert (c.pattern, c.ir_count, c.raman_count) == ("1x60", 4, 10)
+    assert c.transitions_beta == (0.9, 1.0)
+    assert c.label == "C60 isomer 1 (Ih)"
+    assert no_data("ir").reasons == ("no ir data.",)
