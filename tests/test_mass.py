@@ -107,6 +107,27 @@ def test_metallofullerenes_and_isobars():
     assert got["Gd@C82"].envelope_score > 0.98
 
 
+def test_overlapping_hydride_series_is_separated():
+    # invented truth: C60, C60H2 and C60H4 envelopes overlap (2 u apart); peeling from the
+    # low-m/z side recovers each with its amount (common practice, no source)
+    mix = [("C60", 1, 1.0), ("C60H2", 1, 0.4), ("C60H4", 1, 0.3)]
+    obs = observe_mass(synthetic_mass_spectrum(mix, resolving_power=20000, seed=3))
+    got = {sp.formula: sp for sp in obs.species}
+    assert set(got) == {"C60", "C60H2", "C60H4"}
+    for f, _, a in mix:
+        assert got[f].relative_abundance == pytest.approx(a, rel=0.1)
+    assert got["C60H2"].kind == "hydride" and got["C60H2"].cage_n == 60
+
+
+def test_heterofullerene_cage_size():
+    # invented truth: C59N+ next to C70+; the aza cage has 60 atoms
+    obs = observe_mass(synthetic_mass_spectrum([("C59N", 1, 1.0), ("C70", 1, 0.5)], seed=4,
+                                               resolving_power=20000))
+    got = {sp.formula: sp for sp in obs.species}
+    assert set(got) == {"C59N", "C70"}
+    assert got["C59N"].kind == "heterofullerene" and got["C59N"].cage_n == 60
+
+
 def test_negative_ions():
     # invented truth: negative-ion spectra give negative charges; m/z includes the added electron
     s = synthetic_mass_spectrum([("C60", 1, 1.0), ("C70", 2, 0.3)], polarity="negative",

@@ -79,6 +79,16 @@ MAX_CALIBRATION_OFFSET = 0.5
 FRAGMENT_MAX_RATIO = 0.25
 #: a second species in one envelope needs residual peaks above this fraction of the envelope
 RESIDUAL_MIN_FRACTION = 0.10
+#: overlapping envelopes (hydride series, C_(n-1)N next to C_n) are peeled from the low-m/z
+#: side down to this fraction of the largest peak; a peeled species may overshoot the
+#: measured peaks by at most PEEL_MAX_OVERSHOOT of its own intensity
+PEEL_MIN_FRACTION = 0.03
+PEEL_MAX_OVERSHOOT = 0.25
+#: peeling is tried when the usual search explains an envelope with a cosine below this
+PEEL_TRY_BELOW = 0.995
+#: when summing or subtracting envelopes, a line is put on the nearest peak within this many
+#: m/z units times 1/|z| (blended lines move centroids by more than the mass tolerance)
+PEAK_ASSIGN_TOL = 0.1
 #: cage sizes searched, and the largest hydrogen count of a hydride
 CAGE_SIZES = tuple(range(20, 402, 2))
 MAX_HYDROGENS = 36
@@ -137,7 +147,7 @@ class MassSpecies:
     envelope_score : float
         Cosine between measured and theoretical envelope (1 = identical shape).
     cage_n : int
-        Carbon atoms in the cage.
+        Atoms in the cage: its carbons (plus the N of a heterofullerene C_(n-1)N).
     cage_charge : int
         Formal charge on the cage (endohedral clusters donate electrons).
     kind : str
@@ -565,6 +575,136 @@ def _best_for(z, mz, inten, ppm, floor, c13, metals):
     return results
 
 
+def _model(found, mz, ppm, floor) -> np.ndarray:
+    """Sum of the fitted envelopes of ``found`` on the peaks ``mz``."""
+    model = np.zeros(mz.size)
+    for f in found:
+        m = f["match"]
+        assign = PEAK_ASSIGN_TOL / abs(m.charge)
+        env = _envelope_cached(m.formula, m.charge, m.c13)
+        for mz_t, a in zip(env.mz, env.abundance, strict=True):
+            i = int(np.argmin(np.abs(mz - mz_t)))
+            if abs(mz[i] - mz_t) <= max(float(_tol(mz_t, ppm, floor)), assign):
+                model[i] += a * m.scale
+    return model
+
+
+def _explained(found, mz, inten, ppm, floor) -> float:
+    """Cosine between the summed model of ``found`` and the measured envelope."""
+    if not found:
+        return 0.0
+    model = _model(found, mz, ppm, floor)
+    return float(model @ inten / (np.linalg.norm(model) * np.linalg.norm(inten) + 1e-300))
+
+
+def _greedy(z, mz, inten, ppm, floor, c13, metals, snr, noise):
+    """Best formula for the envelope, then for what it leaves (up to 3 species)."""
+    found = []
+    resid = inten.copy()
+    for attempt in range(3):
+        res = _best_for(z, mz, resid, ppm, floor, c13, metals)
+        if not res:
+            break
+        best, kind = res[0]
+        same = parse_formula(best.formula).counts
+        alts = [m.formula for m, _ in res[1:]
+                if m.score >= best.score - AMBIGUITY_MARGIN
+                or parse_formula(m.formula).counts == same]
+        found.append({"match": best, "kind": kind, "alts": alts, "shared": attempt > 0})
+        resid = np.maximum(resid - _model(found[-1:], mz, ppm, floor), 0.0)
+        big = resid > max(RESIDUAL_MIN_FRACTION * inten.max(),
+                          snr * noise if np.isfinite(noise) else 0.0)
+        if np.count_nonzero(big) < MIN_ISOTOPE_PEAKS:
+            break
+    return found
+
+
+# ------------------------------------------------------------------ overlapping envelopes
+
+
+def _mono_index(env: Envelope, text: str) -> int:
+    nominal0 = sum(n * _principal(e, C13_NATURAL)[0] for e, n in parse_formula(text).counts.items())
+    hit = np.flatnonzero(env.nominal == nominal0)
+    return int(hit[0]) if hit.size else 0
+
+
+def _peel(z, mz, inten, ppm, floor, c13, metals):
+    """Explain one envelope as a sum of overlapping species, lowest m/z first.
+
+    The lowest remaining peak must be the monoisotopic line of a species; its
+    height fixes the species' amount, whose envelope is subtracted; repeat.
+    Amounts are then refined jointly by non-negative least squares.
+    """
+    from scipy.optimize import nnls
+
+    thr = PEEL_MIN_FRACTION * float(inten.max())
+    resid = inten.astype(float).copy()
+    picked = []
+    for _ in range(4):
+        above = np.flatnonzero(resid > thr)
+        if above.size == 0:
+            break
+        i = int(above[0])
+        mass = neutral_mass(mz[i], z)
+        tol_m = float(_tol(mz[i], ppm, floor)) * abs(z)
+        best = None
+        for text, kind, _ in candidate_formulas(mass - tol_m, mass + tol_m, metals):
+            env = _envelope_cached(text, z, c13)
+            rel = env.abundance
+            j0 = _mono_index(env, text)
+            if rel[:j0].sum() > 0.01 * rel[j0]:
+                continue
+            amount = resid[i] / rel[j0]
+            column = np.zeros(mz.size)
+            line_mz = np.full(mz.size, np.nan)
+            missing = 0.0
+            for t in np.flatnonzero(amount * rel > 0.3 * thr):
+                k = int(np.argmin(np.abs(mz - env.mz[t])))
+                if abs(mz[k] - env.mz[t]) <= max(float(_tol(env.mz[t], ppm, floor)),
+                                                 PEAK_ASSIGN_TOL / abs(z)):
+                    column[k] += rel[t]
+                    line_mz[k] = env.mz[t]
+                else:
+                    missing += amount * rel[t]
+            total = amount * float(rel.sum())
+            bad = (float(np.maximum(amount * column - resid, 0.0).sum()) + missing) / total
+            key = (bad, _KIND_ORDER.index(kind))
+            if best is None or key < best[0]:
+                best = (key, text, kind, column, line_mz, amount, env, j0)
+        if best is None or best[0][0] > PEEL_MAX_OVERSHOOT:
+            break
+        picked.append(best)
+        resid = np.maximum(resid - best[5] * best[3], 0.0)
+    if len(picked) < 2:
+        return []  # one species alone was already tried (and failed) by the usual search
+    a = np.column_stack([p[3] for p in picked])
+    amounts, _ = nnls(a, inten.astype(float))
+    out = []
+    for j, (_, _text, kind, column, line_mz, _, env, j0) in enumerate(picked):
+        if amounts[j] <= 0:
+            continue
+        others = a @ amounts - column * amounts[j]
+        target = np.maximum(inten - others, 0.0)
+        cos = float(column @ target / (np.linalg.norm(column) * np.linalg.norm(target) + 1e-300))
+        own = (column * amounts[j] >= 0.5 * (a @ amounts)) & np.isfinite(line_mz)
+        if not own.any():
+            continue
+        w = column[own]
+        err = float(np.sum(w * (mz[own] - line_mz[own]) / line_mz[own]) / w.sum() * 1e6)
+        tol_ppm = float(np.max(_tol(line_mz[own], ppm, floor) / line_mz[own]) * 1e6)
+        if cos < ENVELOPE_MIN_SCORE or abs(err) > tol_ppm:
+            continue
+        match = MassMatch(
+            formula=env.formula, charge=z, score=cos * float(np.exp(-0.5 * (err / tol_ppm) ** 2)),
+            envelope_score=cos, error_ppm=err,
+            mono_mz=float(env.mz[j0]) * (1 + err * 1e-6),
+            scale=float(amounts[j] * env.abundance.sum()), n_matched=int(np.count_nonzero(column)),
+            c13=c13, matched=tuple(np.flatnonzero(column).tolist()),
+        )
+        out.append({"match": match, "kind": kind, "alts": [], "shared": True})
+    return out
+
+
 # ------------------------------------------------------------------ calibration
 
 
@@ -724,34 +864,20 @@ def observe_mass(
         zs = sign * z
         emz, eint = cmz[members], parea[members]
         envelopes.append(ObservedEnvelope(zs, emz, eint))
-        resid = eint.copy()
-        for attempt in range(3):
-            res = _best_for(zs, emz, resid, ppm, floor, c13 if c13 == "fit" else c13_fixed,
-                            metals)
-            if not res:
-                if attempt == 0:
-                    unexplained.append({"charge": zs, "mz": [round(v, 5) for v in emz.tolist()],
-                                        "reason": "no candidate formula within tolerance "
-                                        f"({ppm} ppm, floor {floor}) and envelope score "
-                                        f">= {ENVELOPE_MIN_SCORE}"})
-                break
-            best, kind = res[0]
-            same = parse_formula(best.formula).counts
-            alts = [m.formula for m, _ in res[1:]
-                    if m.score >= best.score - AMBIGUITY_MARGIN
-                    or parse_formula(m.formula).counts == same]
-            found.append({"match": best, "kind": kind, "alts": alts, "shared": attempt > 0})
-            env = _envelope_cached(best.formula, zs, best.c13)
-            model = np.zeros(emz.size)
-            for mz_t, a in zip(env.mz, env.abundance, strict=False):
-                i = int(np.argmin(np.abs(emz - mz_t)))
-                if abs(emz[i] - mz_t) <= _tol(mz_t, ppm, floor):
-                    model[i] += a * best.scale
-            resid = np.maximum(resid - model, 0.0)
-            big = resid > max(RESIDUAL_MIN_FRACTION * eint.max(),
-                              snr * noise if np.isfinite(noise) else 0.0)
-            if np.count_nonzero(big) < MIN_ISOTOPE_PEAKS:
-                break
+        c13_search = c13 if c13 == "fit" else c13_fixed
+        greedy = _greedy(zs, emz, eint, ppm, floor, c13_search, metals, snr, noise)
+        chosen = greedy
+        fit_greedy = _explained(greedy, emz, eint, ppm, floor)
+        if c13 != "fit" and fit_greedy < PEEL_TRY_BELOW:
+            peeled = _peel(zs, emz, eint, ppm, floor, c13_fixed, metals)
+            if peeled and _explained(peeled, emz, eint, ppm, floor) > fit_greedy + 0.005:
+                chosen = peeled
+        if not chosen:
+            unexplained.append({"charge": zs, "mz": [round(v, 5) for v in emz.tolist()],
+                                "reason": "no candidate formula within tolerance "
+                                f"({ppm} ppm, floor {floor}) and envelope score "
+                                f">= {ENVELOPE_MIN_SCORE}"})
+        found.extend(chosen)
 
     total_max = max((f["match"].scale for f in found), default=1.0) or 1.0
     by_key = {(f["match"].formula, f["match"].charge): f for f in found}
@@ -766,7 +892,7 @@ def observe_mass(
             f"envelope cosine {m.envelope_score:.4f} with 13C fraction {m.c13:.4f}.",
         ]
         if f["shared"]:
-            reasons.append("found in the residual of an overlapping envelope.")
+            reasons.append("overlaps another envelope; separated by subtracting envelopes.")
         if f["alts"]:
             reasons.append("ambiguous: " + ", ".join(f["alts"][:6])
                            + " explain the envelope about as well.")
@@ -787,7 +913,9 @@ def observe_mass(
         species.append(MassSpecies(
             formula=fm, charge=m.charge, mz=round(m.mono_mz, 6),
             relative_abundance=m.scale / total_max, error_ppm=m.error_ppm,
-            envelope_score=m.envelope_score, cage_n=pf.cage_n, cage_charge=cage_charge(pf),
+            envelope_score=m.envelope_score,
+            cage_n=pf.cage_n + (dict(pf.outer).get("N", 0) if kind == "heterofullerene" else 0),
+            cage_charge=cage_charge(pf),
             kind=kind, reasons=tuple(reasons), alternatives=tuple(f["alts"]),
             n_peaks=m.n_matched, intensity=m.scale, c13=m.c13,
         ))
