@@ -69,6 +69,11 @@ def _split(line: str, delim: str | None) -> list[str]:
     return parts
 
 
+def _is_number_like(cell: str, dec: str) -> bool:
+    """A number, or a NaN/inf word (kept as data so that it is reported, not skipped)."""
+    return _is_number(cell, dec) or bool(_NONFINITE.fullmatch(cell))
+
+
 def _is_number(cell: str, dec: str) -> bool:
     if dec == ",":
         if "." in cell:
@@ -80,7 +85,9 @@ def _is_number(cell: str, dec: str) -> bool:
 def _numeric_fields(line: str, delim: str | None, dec: str) -> int:
     """Number of fields if the first two are numbers (later ones may be text), else 0."""
     parts = _split(line, delim)
-    if len(parts) < 2 or not (_is_number(parts[0], dec) and _is_number(parts[1], dec)):
+    if len(parts) < 2 or not (_is_number_like(parts[0], dec) and _is_number_like(parts[1], dec)):
+        return 0
+    if not (_is_number(parts[0], dec) or _is_number(parts[1], dec)):
         return 0
     return len(parts)
 
@@ -204,6 +211,16 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     delim, dec = best
     ncols = _numeric_fields(sniff[0], delim, dec)
 
+    for hl, htext in header:
+        parts = _split(htext, delim)
+        if len(parts) == ncols and _is_number(parts[0], dec):
+            # a data row with a bad cell, not a header line: report it rather than skip it
+            bad = next(p for p in parts[1:] if not _is_number_like(p, dec))
+            raise SpectrumFormatError(
+                f"non-numeric cell {bad[:40]!r} in column {parts.index(bad) + 1}; expected a "
+                f"number with decimal mark {dec!r}",
+                source, hl,
+            )
     names: list[str] = []
     if header:
         parts = _split(header[-1][1], delim)

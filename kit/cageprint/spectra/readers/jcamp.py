@@ -271,6 +271,7 @@ def _decode_xydata(blk: _Block, source: str, max_points: int):
         step = deltax
     compressed = any(c in _COMPRESSED_ONLY for _, t in lines for c in t)
     ys: list = []
+    xchecks: list[tuple[int, float, int]] = []
     prev_dif = False
     for lineno, text in lines:
         x, vals, ends_dif = _decode_line(text, lineno, compressed, source)
@@ -291,15 +292,7 @@ def _decode_xydata(blk: _Block, source: str, max_points: int):
             vals = vals[1:]
         else:
             index = len(ys)
-        if step is not None and step != 0:
-            expect = firstx + index * step
-            if abs(x * xfactor - expect) > X_CHECK_STEPS * abs(step) * (1 + 1e-9):
-                raise SpectrumFormatError(
-                    f"X-check failed: the line's X={x * xfactor:g} but point {index + 1} should "
-                    f"be at {expect:g} (a lost or extra data line?; tolerance "
-                    f"X_CHECK_STEPS={X_CHECK_STEPS} steps)",
-                    source, lineno,
-                )
+        xchecks.append((lineno, x * xfactor, index))
         ys.extend(vals)
         if len(ys) > max_points:
             raise SpectrumFormatError(
@@ -308,13 +301,43 @@ def _decode_xydata(blk: _Block, source: str, max_points: int):
             )
         prev_dif = ends_dif
     n = len(ys)
-    if npoints is not None and n != int(npoints):
-        raise SpectrumFormatError(
-            f"##NPOINTS={int(npoints)} declared but the XYDATA hold {n} values",
-            source, start,
-        )
     if n == 0:
         raise SpectrumFormatError("##XYDATA= holds no values", source, start)
+
+    def first_x_failure(dx):
+        for lineno, xl, index in xchecks:
+            expect = firstx + index * dx
+            if abs(xl - expect) > X_CHECK_STEPS * abs(dx) * (1 + 1e-9):
+                return lineno, xl, index, expect
+        return None
+
+    if npoints is not None and n != int(npoints):
+        # a wrong NPOINTS leaves the line X values consistent with the real count;
+        # a lost or extra line does not, and the X-check then points at it
+        real = (lastx - firstx) / (n - 1) if lastx is not None and n > 1 else None
+        fail = first_x_failure(step) if step else None
+        if fail is None or (real and first_x_failure(real) is None):
+            raise SpectrumFormatError(
+                f"##NPOINTS={int(npoints)} declared but the XYDATA hold {n} values",
+                source, start,
+            )
+        lineno, xl, index, expect = fail
+        raise SpectrumFormatError(
+            f"X-check failed: the line's X={xl:g} but point {index + 1} should be at "
+            f"{expect:g} (a lost or extra data line?; the block holds {n} values where "
+            f"##NPOINTS={int(npoints)}; tolerance X_CHECK_STEPS={X_CHECK_STEPS} steps)",
+            source, lineno,
+        )
+    if step:
+        fail = first_x_failure(step)
+        if fail is not None:
+            lineno, xl, index, expect = fail
+            raise SpectrumFormatError(
+                f"X-check failed: the line's X={xl:g} but point {index + 1} should be at "
+                f"{expect:g} (a lost or extra data line?; tolerance "
+                f"X_CHECK_STEPS={X_CHECK_STEPS} steps)",
+                source, lineno,
+            )
     if lastx is not None and n > 1:
         x = firstx + np.arange(n) * ((lastx - firstx) / (n - 1))
         x[-1] = lastx
