@@ -1,0 +1,173 @@
+"""Widgets without a browser: set a control from Python, check the session, table and figure."""
+
+from __future__ import annotations
+
+import re
+
+import numpy as np
+import pytest
+
+pytest.importorskip("ipywidgets")
+pytest.importorskip("anywidget")
+
+from cageprint.evidence import Candidate  # noqa: E402
+from cageprint.session import Session  # noqa: E402
+from cageprint.spectra import Spectrum  # noqa: E402
+from cageprint.widgets import (  # noqa: E402
+    AssignmentBoard,
+    CandidateChooser,
+    ComparisonPanel,
+    SpectrumLoader,
+    sync_figure,
+)
+
+# Invented candidates with made-up fingerprints: the widget logic, not the science, is tested.
+CANDIDATES = [
+    Candidate("C76", 76, 1, "D2", (4,) * 19, 165, 192, 0.1),
+    Candidate("C76", 76, 2, "Td", (24, 24, 12, 12, 4), 29, 49, 0.0),
+]
+
+
+def _nmr_profile(seed: int = 3) -> Spectrum:
+    """19 strong lines and 3 weak ones on a flat, noisy baseline (invented)."""
+    rng = np.random.default_rng(seed)
+    x = np.linspace(125.0, 160.0, 14001)
+    strong = 131.0 + 1.0 * np.arange(19)
+    weak = np.array([127.0, 151.5, 153.5])
+    y = np.zeros_like(x)
+    for c, h in [(c, 1.0) for c in strong] + [(c, 0.12) for c in weak]:
+        y += h * 0.015**2 / ((x - c) ** 2 + 0.015**2)
+    y += rng.normal(0, 0.01, x.size)
+    return Spectrum(x, y, technique="nmr", meta={"title": "invented 13C"})
+
+
+@pytest.fixture()
+def session():
+    s = Session()
+    s.set_candidates(CANDIDATES)
+    s.set_spectrum("nmr", _nmr_profile(), name="invented.jdx")
+    return s
+
+
+def _observed(panel) -> int:
+    return int(re.search(r'data-observed="(\d+)"', panel.table.value).group(1))
+
+
+def _predicted(panel) -> list[str]:
+    return re.findall(r"<tr data-key=\"\d+\"[^>]*><td>[^<]*</td><td>[^<]*</td><td>[^<]*</td>"
+                      r"<td>([^<]*)</td>", panel.table.value)
+
+
+def test_threshold_changes_observed_count_table_and_figure(session):
+    panel = ComparisonPanel(session, "nmr")
+    n0, table0 = _observed(panel), panel.table.value
+    peaks0 = len(panel.fig.data[1].x)
+    assert n0 == peaks0 == 22  # 19 strong + 3 weak lines at S/N 12 (> default 5)
+    panel.snr.value = 50.0
+    assert _observed(panel) == 19 == len(panel.fig.data[1].x)
+    assert panel.table.value != table0
+    assert "19 lines observed" in panel.fig.layout.title.text
+    assert session.thresholds("nmr")["snr"] == 50.0
+    assert panel.problem.message == ""
+
+
+def test_control_moved_like_the_browser(session):
+    panel = ComparisonPanel(session, "nmr")
+    idx = list(panel.snr.options).index(("50", 50.0))
+    panel.snr.set_state({"index": idx})  # the front end sends the index, not the value
+    assert session.thresholds("nmr")["snr"] == 50.0
+    assert _observed(panel) == 19
+
+
+def test_region_and_solvent_reach_the_session(session):
+    panel = ComparisonPanel(session, "nmr")
+    panel.region.value = (129.5, 140.5)  # lines at 131..140 ppm inside
+    assert session.thresholds("nmr")["region"] == tuple(panel.region.value)
+    assert _observed(panel) == 10
+    panel.solvent.value = "CS2"
+    assert session.thresholds("nmr")["solvent"] == "CS2"
+
+
+def test_picking_another_candidate_changes_the_predicted_counts(session):
+    panel = ComparisonPanel(session, "nmr", chosen=[1])
+    assert _predicted(panel) == ["19"]
+    panel.pick.value = (2,)
+    assert _predicted(panel) == ["5"]
+    assert 'data-key="2"' in panel.table.value and 'data-key="1"' not in panel.table.value
+
+
+def test_figure_state_is_synced_after_an_update(session):
+    panel = ComparisonPanel(session, "nmr")
+    panel.snr.value = 50.0
+    assert panel.fig._widget_data[1]["x"] is not None
+    assert len(panel.fig._widget_data[1]["x"]) == 19
+    assert panel.fig._widget_layout["title"]["text"] == panel.fig.layout.title.text
+    sync_figure(panel.fig)  # idempotent
+
+
+def test_a_bad_threshold_is_shown_in_the_panel(session):
+    panel = ComparisonPanel(session, "nmr")
+    table = panel.table.value
+    panel.update({"region": (150.0, 150.0)})
+    assert "region" in panel.problem.message
+    assert panel.table.value == table  # the last good table stays
+
+
+def _write_ir_csv(path, shift=0.0):
+    x = np.linspace(400, 1600, 1201)
+    y = sum(np.exp(-0.5 * ((x - c - shift) / 3) ** 2) for c in (527, 577, 1183, 1429))
+    path.write_text("wavenumber,absorbance\n"
+                    + "".join(f"{a:.1f},{b:.6f}\n" for a, b in zip(x, y, strict=True)))
+
+
+def test_malformed_file_shows_error_and_keeps_previous_spectrum(tmp_path):
+    _write_ir_csv(tmp_path / "good.csv")
+    (tmp_path / "bad.csv").write_text("wavenumber,absorbance\n1,2\nthree,four\n5\n")
+    s = Session()
+    loader = SpectrumLoader(s, folder=tmp_path, technique="ir", initial="good.csv")
+    good = loader.spectrum
+    assert good is not None and s.spectra["ir"] is good
+    y_before = np.array(loader.fig.data[0].y)
+    loader.file.value = "bad.csv"
+    assert "Could not read bad.csv" in loader.problem.message
+    assert "previous spectrum is still loaded" in loader.problem.message
+    assert "cp-problem" in loader.problem.widget.value
+    assert loader.spectrum is good and s.spectra["ir"] is good
+    np.testing.assert_array_equal(np.array(loader.fig.data[0].y), y_before)
+
+
+def test_upload_reads_bytes(tmp_path):
+    _write_ir_csv(tmp_path / "up.csv", shift=2.0)
+    s = Session()
+    loader = SpectrumLoader(s, folder=tmp_path, technique="ir")
+    loader._on_upload({"new": ({"name": "up.csv", "content": (tmp_path / "up.csv").read_bytes()},)})
+    assert s.spectra["ir"] is loader.spectrum
+    assert "up.csv" in loader.info.value and 'data-technique="ir"' in loader.info.value
+
+
+def test_chooser_filters_sorts_and_picks(session):
+    session.formula, session.ipr = "C76", True
+    chooser = CandidateChooser(session, "C76", ipr=True)
+    assert 'data-rows="2"' in chooser.table.value
+    chooser.point_group.value = "Td"
+    assert [r["isomer"] for r in chooser.visible_rows()] == [2]
+    chooser.point_group.value = "any"
+    chooser.sort.value = "13C lines"
+    assert [r["isomer"] for r in chooser.visible_rows()] == [2, 1]
+    chooser.pick.value = (1,)
+    assert chooser.chosen == (1,)
+    assert 'class="cp-picked"' in chooser.table.value
+
+
+def test_chooser_reports_a_bad_formula():
+    chooser = CandidateChooser(Session(), "C61")
+    assert "C61" in chooser.problem.message and "even number" in chooser.problem.message
+
+
+def test_board_weights_rerank_and_show(session):
+    board = AssignmentBoard(session)
+    before = board.table.value
+    assert 'data-cp-table="ranking"' in before
+    board.weights["nmr"].value = 0.0
+    assert session.weights["nmr"] == 0.0
+    assert board.table.value != before
