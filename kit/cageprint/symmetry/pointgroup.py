@@ -13,6 +13,7 @@ generic vector, so the g x g multiplication table costs one ``einsum`` and one
 
 from __future__ import annotations
 
+import functools
 import itertools
 from dataclasses import dataclass, field
 
@@ -91,7 +92,7 @@ class PointGroupMatch:
 # ----------------------------------------------------------------------------- helpers
 def _axis(r: np.ndarray) -> np.ndarray:
     """Unit rotation axis of a proper rotation (any sign), or of -r if improper."""
-    if np.linalg.det(r) < 0:
+    if _det3(r) < 0:
         r = -r
     v = np.array([r[2, 1] - r[1, 2], r[0, 2] - r[2, 0], r[1, 0] - r[0, 1]])
     nv = np.linalg.norm(v)
@@ -101,6 +102,17 @@ def _axis(r: np.ndarray) -> np.ndarray:
     j = int(np.argmax(np.linalg.norm(s, axis=0)))
     col = s[:, j]
     return col / np.linalg.norm(col)
+
+
+def _det3(r: np.ndarray) -> float:
+    return float(r[0, 0] * (r[1, 1] * r[2, 2] - r[1, 2] * r[2, 1])
+                 - r[0, 1] * (r[1, 0] * r[2, 2] - r[1, 2] * r[2, 0])
+                 + r[0, 2] * (r[1, 0] * r[2, 1] - r[1, 1] * r[2, 0]))
+
+
+def _cross(u: np.ndarray, v: np.ndarray) -> np.ndarray:
+    return np.array([u[1] * v[2] - u[2] * v[1], u[2] * v[0] - u[0] * v[2],
+                     u[0] * v[1] - u[1] * v[0]])
 
 
 def _canon(v: np.ndarray) -> np.ndarray:
@@ -394,12 +406,7 @@ def identify_point_group(ops, tol: float = SYMMETRY_TOL, weights=None) -> PointG
     cw = np.bincount(cls_of_op, weights=w, minlength=nc) / sizes
 
     # match each table class to the conjugacy classes of the same kind
-    tdet = np.array([class_operation(c)[0] for c in table.classes])
-    ttr = table.vector_characters
-    tsz = np.array(table.class_sizes)
-    groups: dict[tuple, list[int]] = {}
-    for t in range(nc):
-        groups.setdefault((tdet[t], round(float(ttr[t]), 3), tsz[t]), []).append(t)
+    groups = _column_kinds(symbol)
     free: list[tuple[list[int], list[int]]] = []
     assign = np.full(nc, -1)
     for (d, tr, sz), tcols in groups.items():
@@ -439,6 +446,18 @@ _HEAVY_FIRST = {
 }
 
 
+@functools.cache
+def _column_kinds(symbol: str) -> dict[tuple, list[int]]:
+    """Table columns grouped by (determinant, trace, class size), per group (cached)."""
+    table = character_table(symbol)
+    ttr = table.vector_characters
+    groups: dict[tuple, list[int]] = {}
+    for t, lab in enumerate(table.classes):
+        key = (class_operation(lab)[0], round(float(ttr[t]), 3), table.class_sizes[t])
+        groups.setdefault(key, []).append(t)
+    return groups
+
+
 def _settle(table, assign, free, cls_of_op, mult, cw, first, symbol):
     """Choose among the labellings left open by the table (see Notes above)."""
     one_d = [i for i, (r, d) in enumerate(zip(table.irreps, table.dims, strict=True))
@@ -446,29 +465,23 @@ def _settle(table, assign, free, cls_of_op, mult, cw, first, symbol):
     chars = table.characters
     order_cols = sorted(t for tcols, _ in free for t in tcols)
     heavy_cols = [table.classes.index(c) for c in _HEAVY_FIRST.get(symbol, ())]
-    best = None
+    cands = []
     for perms in itertools.product(*(itertools.permutations(c) for _, c in free)):
         cand = assign.copy()
         for (tcols, _), p in zip(free, perms, strict=True):
             cand[tcols] = p
-        col = np.empty(len(cand), dtype=int)
-        col[cand] = np.arange(len(cand))
-        op_col = col[cls_of_op]
-        ok = True
-        for i in one_d:
-            chi = chars[i, op_col]
-            if not np.array_equal(chi[mult], np.outer(chi, chi)):
-                ok = False
-                break
-        if not ok:
-            continue
-        key = (tuple(-cw[cand[t]] for t in heavy_cols),
-               tuple(first[cand[t]] for t in order_cols))
-        if best is None or key < best[0]:
-            best = (key, cand)
-    if best is None:  # pragma: no cover - a group that passed the class count always fits
+        cands.append(cand)
+    cands = np.array(cands)                          # (K, nc): table column -> class
+    if one_d:                                        # all candidates tested at once
+        op_col = np.argsort(cands, axis=1)[:, cls_of_op]   # (K, g)
+        chi = chars[one_d][:, op_col]                # (n1d, K, g)
+        ok = np.all(chi[:, :, mult] == chi[:, :, :, None] * chi[:, :, None, :], axis=(0, 2, 3))
+        cands = cands[ok]
+    if not len(cands):  # pragma: no cover - a group that passed the class count always fits
         raise SymmetryError(f"ops: no labelling of the {symbol} classes fits its characters")
-    return best[1]
+    keys = [(tuple(-cw[c[t]] for t in heavy_cols), tuple(first[c[t]] for t in order_cols))
+            for c in cands]
+    return cands[min(range(len(cands)), key=keys.__getitem__)]
 
 
 def _frame(symbol: str, table: CharacterTable, a: np.ndarray, op_class: np.ndarray) -> np.ndarray:
@@ -516,11 +529,11 @@ def _frame(symbol: str, table: CharacterTable, a: np.ndarray, op_class: np.ndarr
         j = first_op(lambda c: c.startswith("σv") or c.lstrip("0123456789").startswith("σv"))
         if j is not None:
             nrm = _axis(a[j])  # mirror normal; the x axis lies in the mirror
-            x = np.cross(nrm, z)
+            x = _cross(nrm, z)
     if x is None or np.linalg.norm(x - (x @ z) * z) < 0.5:
         x = _perp(z)
     x = x - (x @ z) * z
     x /= np.linalg.norm(x)
-    y = np.cross(z, x)
+    y = _cross(z, x)
     return np.vstack([x, y, z])
 
