@@ -48,6 +48,11 @@ _LAZY = {
     "vibrational_analysis": "reduce",
     "direct_product": "reduce",
     "transition_allowed": "reduce",
+    "cartesian_character": "reduce",
+    "class_characters": "reduce",
+    "representation_characters": "reduce",
+    "VibrationalAnalysis": "reduce",
+    "REDUCE_TOL": "reduce",
 }
 
 __all__ = [
