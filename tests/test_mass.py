@@ -301,6 +301,16 @@ def test_cli_mass_csv(tmp_path, capsys):
     assert "calibration offset +0.300" in out and "Sc3N@C80" in out
 
 
+def test_cli_mass_stick_list(tmp_path, capsys):
+    # invented truth: a centroided two-column file is read as a peak list (wide spacing)
+    s = synthetic_mass_spectrum(MIXTURE[:3], kind="peaks")
+    path = tmp_path / "sticks.csv"
+    np.savetxt(path, np.c_[s.x, s.y], delimiter=",", header="m/z,intensity", comments="")
+    assert main(["mass", str(path), "--csv"]) == 0
+    rows = [ln.split(",") for ln in capsys.readouterr().out.strip().splitlines()[1:]]
+    assert sorted((r[0], int(r[1])) for r in rows) == [("C60", 1), ("C60", 2), ("C70", 1)]
+
+
 def test_cli_mass_errors(tmp_path, capsys):
     path = tmp_path / "flat.csv"
     np.savetxt(path, np.c_[np.linspace(500, 900, 200), np.zeros(200)], delimiter=",",

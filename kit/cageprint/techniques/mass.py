@@ -66,6 +66,8 @@ __all__ = [
 CALIBRANT_MIN_SCORE = 0.97
 #: largest calibration offset searched for, in m/z units
 MAX_CALIBRATION_OFFSET = 0.5
+#: a "profile" whose median point spacing exceeds this (m/z) is read as a peak list
+PEAK_LIST_STEP = 0.1
 #: a species is a C2-loss fragment when at most this fraction of its C2-richer neighbour
 FRAGMENT_MAX_RATIO = 0.25
 
@@ -328,7 +330,10 @@ def observe_mass(
                 "clip_negative=True to set them to zero"
             )
         y = np.maximum(y, 0.0)
-    if spectrum.kind == "profile":
+    read_as = spectrum.kind
+    if read_as == "profile" and x.size > 1 and float(np.median(np.diff(x))) > PEAK_LIST_STEP:
+        read_as = "peaks"  # points further apart than any profile sampling: a stick list
+    if read_as == "profile":
         pmz, parea, _, noise, thr = _centroid_profile(x, y, snr)
     else:
         keep = y >= MIN_RELATIVE_INTENSITY * (y.max() if y.size else 0)
@@ -425,6 +430,7 @@ def observe_mass(
     diagnostics = {
         "polarity": "positive" if sign > 0 else "negative",
         "kind": spectrum.kind,
+        "read_as": read_as,
         "n_points": int(x.size),
         "noise": noise,
         "threshold": thr,
