@@ -9,7 +9,7 @@ from __future__ import annotations
 import time
 
 from cageprint import isotopes
-from cageprint.techniques import mass
+from cageprint.techniques import mass_match
 from cageprint.techniques.mass import observe_mass
 from cageprint.techniques.mass_synthetic import synthetic_mass_spectrum
 
@@ -68,8 +68,8 @@ def main():
                                    seed=1, mz_range=(300.0, 1200.0), points=100_000)
     print()
     print(f"observe_mass on a {len(spec)}-point profile (8 invented species, 0.3 m/z offset)")
-    mass._library.cache_clear()
-    mass._envelope_cached.cache_clear()
+    mass_match._library.cache_clear()
+    mass_match._envelope_cached.cache_clear()
     t0 = time.perf_counter()
     obs = observe_mass(spec)
     cold = time.perf_counter() - t0
