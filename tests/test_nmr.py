@@ -26,7 +26,7 @@ from cageprint.techniques.nmr import (
 )
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def ipr_candidates(n: int) -> tuple[Candidate, ...]:
     from cageprint.cage import iter_isomers
 

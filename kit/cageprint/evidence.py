@@ -600,7 +600,7 @@ def rank(
                       if any(v.verdict != "no data" for v in per[t]))
 
     scored = []
-    for i, c in enumerate(cands):
+    for i in range(len(cands)):
         total = 0.0
         out = False
         worst = "consistent"
@@ -640,7 +640,10 @@ def rank(
             if others:
                 same = [t for t in with_data if w[t] > 0 and all(
                     cands[o[0]].signature(t) == c.signature(t) for o in g)]
-                if same and len(same) == len([t for t in with_data if w[t] > 0]):
+                weighted = [t for t in with_data if w[t] > 0]
+                if not weighted:
+                    why = "no weighted evidence"
+                elif same and len(same) == len(weighted):
                     why = ", ".join(_describe_signature(t, c) for t in same)
                 else:
                     why = f"overall scores equal within {tie_tol:g}"

@@ -56,7 +56,7 @@ from .evidence import (
 from .spectra import Spectrum
 from .techniques import electronic, nmr, vibrational
 
-__all__ = ["Session", "parse_cage_formula", "SESSION_FORMAT"]
+__all__ = ["Session", "parse_cage_formula", "as_peak_list_if_sparse", "SESSION_FORMAT"]
 
 #: tag written into saved sessions
 SESSION_FORMAT = "cageprint-session/1"
@@ -83,6 +83,41 @@ def parse_cage_formula(formula: str) -> tuple[int, str | None]:
         raise FormulaError(f"formula {formula!r}: a fullerene cage has an even number of "
                            f"carbons, 20 or 24 and up; got {n}")
     return n, m.group("inner")
+
+
+#: a "profile" with at most this many, irregularly spaced points is read as a peak list
+PEAK_LIST_MAX_POINTS = 400
+#: spacing irregularity (std / mean of the x steps) above which points are not a trace
+PEAK_LIST_IRREGULARITY = 0.2
+
+
+def as_peak_list_if_sparse(spectrum: Spectrum) -> Spectrum:
+    """Treat a short, irregularly spaced "profile" (a plain two-column peak list) as peaks.
+
+    A delimited text file does not say whether it holds a sampled trace or a
+    list of lines; a trace has many evenly spaced points, a peak list a few
+    scattered ones.
+
+    Examples
+    --------
+    >>> s = Spectrum([130.2, 131.9, 140.05, 147.3], [1, 1, 2, 1], technique="nmr")
+    >>> as_peak_list_if_sparse(s).kind
+    'peaks'
+    >>> as_peak_list_if_sparse(Spectrum(np.arange(10.0), np.ones(10), technique="ir")).kind
+    'profile'
+    """
+    if spectrum.kind != "profile" or len(spectrum) > PEAK_LIST_MAX_POINTS:
+        return spectrum
+    steps = np.diff(spectrum.x)
+    if steps.size == 0:
+        return spectrum.replace(kind="peaks", meta={**dict(spectrum.meta),
+                                                    "read_as": "peak list (one point)"})
+    irregular = float(np.std(steps) / (np.mean(steps) or 1.0))
+    if irregular <= PEAK_LIST_IRREGULARITY:
+        return spectrum
+    return spectrum.replace(kind="peaks", meta={
+        **dict(spectrum.meta),
+        "read_as": f"peak list ({len(spectrum)} irregularly spaced points)"})
 
 
 def _observe_mass(spectrum: Any, **options: Any):
@@ -249,6 +284,7 @@ class Session:
             spectrum = load_spectrum(source, format=format, technique=technique, **options)
             if name is None and isinstance(source, (str, Path)):
                 name = Path(source).name
+            spectrum = as_peak_list_if_sparse(spectrum)
         self.set_spectrum(technique, spectrum, name=name)
         return spectrum
 

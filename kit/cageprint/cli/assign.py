@@ -134,8 +134,9 @@ def _print_table(ranking, top: int, out) -> None:
         r = first[0]
         print(f"first: {', '.join(x.candidate.label for x in first)}"
               + (f" ({r.tie_reason})" if r.tie_reason else ""), file=out)
-        for reason in r.reasons:
-            print(f"  {reason}", file=out)
+        for t in ranking.with_data:
+            for reason in r.verdicts[t].reasons:
+                print(f"  {short[t]}: {reason}", file=out)
     else:
         print("every candidate is ruled out by the evidence as weighted", file=out)
 

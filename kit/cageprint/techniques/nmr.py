@@ -316,7 +316,8 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_miss):
     for k in itertools.product(*(range(min(c, max_merge) + 1) for c in counts)):
         if 1 <= sum(k) <= max_merge:
             options.append(k)
-    contents = np.array([sum(ki * v for ki, v in zip(k, values, strict=False)) for k in options], float)
+    contents = np.array([sum(ki * v for ki, v in zip(k, values, strict=True))
+                         for k in options], float)
     n_orb = np.array([sum(k) for k in options])
     inf = math.inf
     dp = np.full(dims, inf)
@@ -516,7 +517,8 @@ def _verdict(obs, sizes, pattern, cost, picks, values, counts, ln_s, use, tol,
         "impurity_lines": impurities, "missing_orbits": missing, "merged_orbits": extra,
         "merged_lines": [[p, int(sum(k))] for p, k in merged_lines],
         "rms_log_integral_error": rms, "carbons_per_unit_area": math.exp(ln_s) if use else None,
-        "assignment": [None if k is None else int(sum(ki * v for ki, v in zip(k, values, strict=False)))
+        "assignment": [None if k is None
+                       else int(sum(ki * v for ki, v in zip(k, values, strict=True)))
                        for k in picks],
     }
     return TechniqueVerdict("nmr", -cost, verdict, tuple(reasons), details)
