@@ -66,6 +66,8 @@ __all__ = [
 CALIBRANT_MIN_SCORE = 0.97
 #: largest calibration offset searched for, in m/z units
 MAX_CALIBRATION_OFFSET = 0.5
+#: a weak peak's mass tolerance is at least this many times its centroid uncertainty FWHM/(S/N)
+CENTROID_UNCERTAINTY_FACTOR = 1.0
 #: a "profile" whose median point spacing exceeds this (m/z) is read as a peak list
 PEAK_LIST_STEP = 0.1
 #: a species is a C2-loss fragment when at most this fraction of its C2-richer neighbour
@@ -275,7 +277,7 @@ def observe_mass(
     snr : float
         Peak threshold in noise standard deviations (:data:`PEAK_SNR`).
     ppm, floor : float
-        Mass tolerance: ``max(ppm * 1e-6 * m/z, floor)`` (:data:`MASS_TOL_PPM`,
+        Mass tolerance: ``max(ppm * 1e-6 * m/z, floor, FWHM / (S/N))`` (:data:`MASS_TOL_PPM`,
         :data:`MASS_TOL_FLOOR`, floor in m/z units).
     c13 : None, float or "fit"
         13C fraction of the theoretical envelopes: natural (None), fixed, or
@@ -334,17 +336,20 @@ def observe_mass(
     if read_as == "profile" and x.size > 1 and float(np.median(np.diff(x))) > PEAK_LIST_STEP:
         read_as = "peaks"  # points further apart than any profile sampling: a stick list
     if read_as == "profile":
-        pmz, parea, _, noise, thr = _centroid_profile(x, y, snr)
+        pmz, parea, _, noise, thr, punc = _centroid_profile(x, y, snr)
     else:
         keep = y >= MIN_RELATIVE_INTENSITY * (y.max() if y.size else 0)
         pmz, parea = x[keep & (y > 0)], y[keep & (y > 0)]
+        punc = np.zeros(pmz.size)
         noise, thr = float("nan"), float(MIN_RELATIVE_INTENSITY * y.max())
     if pmz.size == 0:
         raise SpectrumError(
             f"no peaks in the mass spectrum above the threshold ({snr} x noise "
             f"{noise:.3g} = {thr:.3g}); lower snr= or check the file"
         )
-    chains, free = _chains(pmz, parea, ppm, floor)
+    # weak peaks: the tolerance widens to their centroid uncertainty (FWHM / S/N)
+    pfloor = np.maximum(floor, CENTROID_UNCERTAINTY_FACTOR * punc)
+    chains, free = _chains(pmz, parea, ppm, pfloor)
 
     # calibration offset from the C_n ladder
     calib: list[dict[str, Any]] = []
@@ -369,14 +374,15 @@ def observe_mass(
     for z, members in chains:
         zs = sign * z
         emz, eint = cmz[members], parea[members]
-        envelopes.append(ObservedEnvelope(zs, emz, eint))
+        efl = pfloor[members]
+        envelopes.append(ObservedEnvelope(zs, emz, eint, efl))
         c13_search = c13 if c13 == "fit" else c13_fixed
-        greedy = _greedy(zs, emz, eint, ppm, floor, c13_search, metals, snr, noise)
+        greedy = _greedy(zs, emz, eint, ppm, efl, c13_search, metals, snr, noise)
         chosen = greedy
-        fit_greedy = _explained(greedy, emz, eint, ppm, floor)
+        fit_greedy = _explained(greedy, emz, eint, ppm, efl)
         if c13 != "fit" and fit_greedy < PEEL_TRY_BELOW:
-            peeled = _peel(zs, emz, eint, ppm, floor, c13_fixed, metals)
-            if peeled and _explained(peeled, emz, eint, ppm, floor) > fit_greedy + 0.005:
+            peeled = _peel(zs, emz, eint, ppm, efl, c13_fixed, metals)
+            if peeled and _explained(peeled, emz, eint, ppm, efl) > fit_greedy + 0.005:
                 chosen = peeled
         if not chosen:
             unexplained.append({"charge": zs, "mz": [round(v, 5) for v in emz.tolist()],

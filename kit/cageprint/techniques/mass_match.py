@@ -120,6 +120,7 @@ class ObservedEnvelope:
     charge: int
     mz: np.ndarray
     intensity: np.ndarray
+    floor: np.ndarray | None = None
 
     @property
     def base_mz(self) -> float:
@@ -160,16 +161,21 @@ class MassMatch:
     matched: tuple[int, ...] = ()
 
 
+def _fl(floor, idx):
+    """The tolerance floor of peak(s) ``idx``: ``floor`` is a number or one value per peak."""
+    return floor[idx] if np.ndim(floor) else floor
+
+
 def _match(text, z, mz, inten, ppm, floor, c13) -> MassMatch | None:
     env = _envelope_cached(text, z, c13)
     rel = env.abundance
     keep = rel >= 1e-3 * rel.max()
     tmz, tab = env.mz[keep], rel[keep]
-    tol = _tol(tmz, ppm, floor)
     j = np.clip(np.searchsorted(mz, tmz), 1, max(mz.size - 1, 1))
     left = np.clip(j - 1, 0, mz.size - 1)
     right = np.clip(j, 0, mz.size - 1)
     pick = np.where(np.abs(mz[left] - tmz) <= np.abs(mz[right] - tmz), left, right)
+    tol = _tol(tmz, ppm, _fl(floor, pick))
     dev = mz[pick] - tmz
     hit = np.abs(dev) <= tol
     base = int(np.argmax(tab))
@@ -241,6 +247,8 @@ def score_formula(formula, envelope: ObservedEnvelope, *, c13=None,
     """
     text = parse_formula(formula).text
     z = envelope.charge
+    if envelope.floor is not None:
+        floor = np.maximum(floor, envelope.floor)
     if c13 == "fit":
         return _match_free_c13(text, z, envelope.mz, envelope.intensity, ppm, floor)
     c = C13_NATURAL if c13 is None else float(c13)
@@ -271,7 +279,7 @@ def _model(found, mz, ppm, floor) -> np.ndarray:
         env = _envelope_cached(m.formula, m.charge, m.c13)
         for mz_t, a in zip(env.mz, env.abundance, strict=True):
             i = int(np.argmin(np.abs(mz - mz_t)))
-            if abs(mz[i] - mz_t) <= max(float(_tol(mz_t, ppm, floor)), assign):
+            if abs(mz[i] - mz_t) <= max(float(_tol(mz_t, ppm, _fl(floor, i))), assign):
                 model[i] += a * m.scale
     return model
 
@@ -333,7 +341,7 @@ def _peel(z, mz, inten, ppm, floor, c13, metals):
             break
         i = int(above[0])
         mass = neutral_mass(mz[i], z)
-        tol_m = float(_tol(mz[i], ppm, floor)) * abs(z)
+        tol_m = float(_tol(mz[i], ppm, _fl(floor, i))) * abs(z)
         best = None
         for text, kind, _ in candidate_formulas(mass - tol_m, mass + tol_m, metals):
             env = _envelope_cached(text, z, c13)
@@ -347,7 +355,7 @@ def _peel(z, mz, inten, ppm, floor, c13, metals):
             missing = 0.0
             for t in np.flatnonzero(amount * rel > 0.3 * thr):
                 k = int(np.argmin(np.abs(mz - env.mz[t])))
-                if abs(mz[k] - env.mz[t]) <= max(float(_tol(env.mz[t], ppm, floor)),
+                if abs(mz[k] - env.mz[t]) <= max(float(_tol(env.mz[t], ppm, _fl(floor, k))),
                                                  PEAK_ASSIGN_TOL / abs(z)):
                     column[k] += rel[t]
                     line_mz[k] = env.mz[t]
@@ -378,7 +386,8 @@ def _peel(z, mz, inten, ppm, floor, c13, metals):
             continue
         w = column[own]
         err = float(np.sum(w * (mz[own] - line_mz[own]) / line_mz[own]) / w.sum() * 1e6)
-        tol_ppm = float(np.max(_tol(line_mz[own], ppm, floor) / line_mz[own]) * 1e6)
+        tol_ppm = float(np.max(_tol(line_mz[own], ppm, _fl(floor, np.flatnonzero(own)))
+                               / line_mz[own]) * 1e6)
         if cos < ENVELOPE_MIN_SCORE or abs(err) > tol_ppm:
             continue
         match = MassMatch(

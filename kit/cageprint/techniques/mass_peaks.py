@@ -44,7 +44,8 @@ def _centroid_profile(x, y, snr):
     Centroid: intensity-weighted mean of the points above half height (weights
     y - half, so the window edges carry no weight); with fewer than 5 such
     points, the vertex of a parabola through ln y of the top 3 points (exact
-    for a Gaussian).  Area: height x FWHM x 1.0645 (Gaussian).
+    for a Gaussian).  Area: height x FWHM x 1.0645 (Gaussian).  Uncertainty:
+    FWHM / (S/N), used to widen the mass tolerance of weak peaks.
     """
     from scipy.signal import find_peaks, peak_widths
 
@@ -55,7 +56,7 @@ def _centroid_profile(x, y, snr):
     idx, _ = find_peaks(yc, height=thr, prominence=thr)
     idx = idx[(idx > 0) & (idx < y.size - 1)]
     if idx.size == 0:
-        return np.empty(0), np.empty(0), np.empty(0), noise, thr
+        return np.empty(0), np.empty(0), np.empty(0), noise, thr, np.empty(0)
     widths, half, left, right = peak_widths(yc, idx, rel_height=0.5)
     # three-point Gaussian vertex
     xl, x0, xr = x[idx - 1], x[idx], x[idx + 1]
@@ -89,7 +90,9 @@ def _centroid_profile(x, y, snr):
     step = np.interp(idx, np.arange(x.size - 1) + 0.5, np.diff(x))
     fwhm = widths * step
     area = height * fwhm * 1.0644670194312262
-    return centre, area, height, noise, thr
+    # centroid uncertainty of a noisy Gaussian peak, of order FWHM / (S/N)
+    uncertainty = fwhm * noise / np.maximum(height, 1e-300)
+    return centre, area, height, noise, thr, uncertainty
 
 
 # ------------------------------------------------------------------ envelopes (chains)
@@ -126,7 +129,8 @@ def _chains(mz, inten, ppm, floor):
                 cur = int(seed)
                 gaps = 0
                 while True:
-                    tol = ISOTOPE_STEP_TOL / z + 2 * float(_tol(mz[cur], ppm, floor))
+                    fl = floor[cur] if np.ndim(floor) else floor
+                    tol = ISOTOPE_STEP_TOL / z + 2 * float(_tol(mz[cur], ppm, fl))
                     j = nearest_free(mz[cur] + direction * step, tol)
                     if j < 0 and len(members) >= 3 and gaps == 0:
                         j = nearest_free(mz[cur] + direction * 2 * step, tol * 1.5)
