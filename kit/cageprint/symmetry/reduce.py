@@ -9,6 +9,7 @@ of degenerate pairs, as usual when counting modes or levels).
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Mapping
 from typing import NamedTuple
 
@@ -274,8 +275,7 @@ def vibrational_analysis(table: CharacterTable, gamma3n) -> VibrationalAnalysis:
     if n3 % 3:
         raise SymmetryError(f"gamma3n: expected a dimension divisible by 3 (3N), found {n3}")
     vib = dict(full)
-    tr = reduce_representation(table, table.vector_characters, keep_zeros=True)
-    rot = reduce_representation(table, table.axial_characters, keep_zeros=True)
+    tr, rot = _trans_rot(table)
     for ir in table.irreps:
         vib[ir] = full[ir] - tr[ir] - rot[ir]
         if vib[ir] < 0:
@@ -296,6 +296,13 @@ def vibrational_analysis(table: CharacterTable, gamma3n) -> VibrationalAnalysis:
         "silent_count": sum(gv[ir] for ir in silent),
     }
     return VibrationalAnalysis(gv, ir_ir, ra_ir, silent, counts)
+
+
+@functools.cache
+def _trans_rot(t: CharacterTable) -> tuple[dict[str, int], dict[str, int]]:
+    """Γtrans and Γrot of a group, reduced once per table."""
+    return (reduce_representation(t, t.vector_characters, keep_zeros=True),
+            reduce_representation(t, t.axial_characters, keep_zeros=True))
 
 
 def direct_product(table: CharacterTable, a: str, b: str) -> dict[str, int]:

@@ -32,6 +32,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 
@@ -103,24 +104,23 @@ class CharacterTable:
     separable: tuple[str, ...]
     source: str = field(repr=False)
 
-    @property
+    @cached_property
     def norms(self) -> np.ndarray:
         """Row norm of each irrep: h, or 2h for a separably degenerate pair."""
-        return np.array([2 * self.order if r in self.separable else self.order
-                         for r in self.irreps], dtype=float)
+        return _frozen([2 * self.order if r in self.separable else self.order
+                        for r in self.irreps])
 
-    @property
+    @cached_property
     def vector_characters(self) -> np.ndarray:
         """Characters of (x, y, z) on each class: the trace of the 3x3 matrix."""
-        return np.array([_trace(*class_operation(c)) for c in self.classes])
+        return _frozen([_trace(*class_operation(c)) for c in self.classes])
 
-    @property
+    @cached_property
     def axial_characters(self) -> np.ndarray:
         """Characters of (Rx, Ry, Rz) on each class: det times trace."""
-        return np.array([det * _trace(det, ang)
-                         for det, ang in map(class_operation, self.classes)])
+        return _frozen([det * _trace(det, ang) for det, ang in map(class_operation, self.classes)])
 
-    @property
+    @cached_property
     def quadratic_characters(self) -> np.ndarray:
         """Characters of the six quadratic functions (symmetric square of x, y, z)."""
         out = []
@@ -128,7 +128,7 @@ class CharacterTable:
             t = _trace(det, ang)
             t2 = 1.0 + 2.0 * math.cos(2.0 * ang)  # trace of the squared operation
             out.append(0.5 * (t * t + t2))
-        return np.array(out)
+        return _frozen(out)
 
     def index(self, irrep: str) -> int:
         """Row of ``irrep``; :class:`SymmetryError` if the table has no such irrep."""
@@ -189,6 +189,12 @@ def class_size(label: str) -> int:
     """Leading count of a class label (1 if none)."""
     m = re.match(r"\d+", label)
     return int(m.group()) if m else 1
+
+
+def _frozen(values) -> np.ndarray:
+    a = np.array(values, dtype=float)
+    a.setflags(write=False)
+    return a
 
 
 def _trace(det: int, angle: float) -> float:
