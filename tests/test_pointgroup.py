@@ -11,7 +11,7 @@ import pytest
 
 from cageprint.errors import SymmetryError
 from cageprint.symmetry.pointgroup import SYMMETRY_TOL, identify_point_group
-from cageprint.symmetry.reduce import gamma_3n, vibrational_analysis
+from cageprint.symmetry.reduce import gamma_3n, reduce_representation, vibrational_analysis
 from cageprint.symmetry.tables import POINT_GROUPS, character_table, class_operation
 
 PHI = (1 + math.sqrt(5)) / 2
@@ -461,3 +461,40 @@ def test_identification_against_libmsym_operations(sym):
     else:
         for r in mine:
             assert np.allclose(mine[r], theirs[r], atol=1e-6), r
+
+
+def _orbit_points(ops, seeds):
+    pts = np.concatenate([ops @ np.asarray(s, float) for s in seeds])
+    _, keep = np.unique(np.round(pts, 6) + 0.0, axis=0, return_index=True)
+    return pts[np.sort(keep)]
+
+
+def _fixed_counts(ops, pts):
+    img = np.einsum("gij,nj->gni", ops, pts)
+    d = np.linalg.norm(img[:, :, None, :] - pts[None, None, :, :], axis=3)
+    return (d.argmin(axis=2) == np.arange(len(pts))).sum(axis=1)
+
+
+@pytest.mark.parametrize("sym", ["C2v", "D2", "D2h", "D6", "D6h", "C3h", "Th"])
+def test_gamma3n_counts_do_not_depend_on_orientation_or_op_order(sym):
+    # with weights = atoms left in place the axis-dependent labels follow the atoms, so Γ3N is
+    # the same for every orientation and every order of the operations (documented rule;
+    # common practice, no source).  Invented point sets: more atoms in the xz plane than in yz.
+    base = close(generators(sym))
+    pts = _orbit_points(base, [[0.31, 0.17, 0.93], [0.6, 0.0, 0.3], [0.2, 0.0, -0.7],
+                               [0.0, 0.45, 0.5], [0.0, 0.0, 1.1]])
+    results = set()
+    for seed in range(4):
+        rng = np.random.default_rng(seed)
+        q = random_rotation(rng)
+        order = rng.permutation(len(base))
+        ops = (q @ base @ q.T)[order]
+        x = pts @ q.T
+        fixed = _fixed_counts(ops, x)
+        m = identify_point_group(ops, weights=fixed)
+        g3n = reduce_representation(m.table, gamma_3n(m.table, m.op_class, ops, fixed))
+        results.add(tuple(g3n.items()))
+    assert len(results) == 1
+    if sym == "C2v":  # the xz plane of the builder holds more atoms: it becomes σv'(yz)
+        g3n = dict(results.pop())
+        assert g3n["B2"] > g3n["B1"]
