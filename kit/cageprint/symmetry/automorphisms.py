@@ -26,6 +26,7 @@ __all__ = [
     "AutomorphismGroup",
     "automorphisms",
     "check_rotation_system",
+    "checked_faces",
     "trace_faces",
 ]
 
@@ -66,6 +67,17 @@ class AutomorphismGroup:
 
 
 def check_rotation_system(neighbours) -> np.ndarray:
+    """Validate a neighbour table (see :func:`checked_faces`) and return it as an int array.
+
+    Examples
+    --------
+    >>> check_rotation_system([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]).shape
+    (4, 3)
+    """
+    return checked_faces(neighbours)[0]
+
+
+def checked_faces(neighbours) -> tuple[np.ndarray, list[tuple[int, ...]]]:
     """Validate a neighbour table with a rotation system and return it as an int array.
 
     Parameters
@@ -76,8 +88,8 @@ def check_rotation_system(neighbours) -> np.ndarray:
 
     Returns
     -------
-    numpy.ndarray
-        The table as a C-contiguous ``int64`` array.
+    (numpy.ndarray, list of tuple of int)
+        The table as a C-contiguous ``int64`` array, and its faces.
 
     Raises
     ------
@@ -88,8 +100,9 @@ def check_rotation_system(neighbours) -> np.ndarray:
 
     Examples
     --------
-    >>> check_rotation_system([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]).shape
-    (4, 3)
+    >>> nb, faces = checked_faces([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]])
+    >>> nb.shape, len(faces)
+    ((4, 3), 4)
     """
     try:
         nb = np.ascontiguousarray(neighbours, dtype=np.int64)
@@ -135,7 +148,7 @@ def check_rotation_system(neighbours) -> np.ndarray:
             f"on a sphere has {n // 2 + 2} (the rows are not all in one rotational sense, or the "
             "graph is not planar)"
         )
-    return nb
+    return nb, faces
 
 
 def _back_index(nb: np.ndarray) -> np.ndarray:
@@ -168,23 +181,20 @@ def trace_faces(neighbours) -> list[tuple[int, ...]]:
     nb = np.asarray(neighbours, dtype=np.int64)
     n = nb.shape[0]
     back = _back_index(nb)
-    seen = np.zeros((n, 3), dtype=bool)
+    # dart 3u+m is u -> nb[u, m]; the next dart of its face leaves v = nb[u, m]
+    nxt = (3 * nb + (back + 1) % 3).ravel().tolist()
+    seen = [False] * (3 * n)
     faces = []
-    for u0 in range(n):
-        for m0 in range(3):
-            if seen[u0, m0]:
-                continue
-            face = []
-            u, m = u0, m0
-            while not seen[u, m]:
-                seen[u, m] = True
-                face.append(u)
-                v = nb[u, m]
-                m = (back[u, m] + 1) % 3
-                u = int(v)
-                if len(face) > 2 * n:  # cannot happen for a valid table
-                    break
-            faces.append(tuple(int(a) for a in face))
+    for d0 in range(3 * n):
+        if seen[d0]:
+            continue
+        face = []
+        d = d0
+        while not seen[d]:
+            seen[d] = True
+            face.append(d // 3)
+            d = nxt[d]
+        faces.append(tuple(face))
     return faces
 
 
@@ -246,7 +256,7 @@ def _bfs_plan(nb: np.ndarray, back: np.ndarray, root: int):
     return (np.array(order), np.array(parent), np.array(offset), kref)
 
 
-def automorphisms(neighbours, *, validate: bool = True) -> AutomorphismGroup:
+def automorphisms(neighbours, *, validate: bool = True, faces=None) -> AutomorphismGroup:
     """All automorphisms of a cubic planar cage graph, each marked proper or improper.
 
     Parameters
@@ -256,6 +266,8 @@ def automorphisms(neighbours, *, validate: bool = True) -> AutomorphismGroup:
         in one rotational sense (``Cage.neighbours``).
     validate : bool, default True
         Check the table first with :func:`check_rotation_system`.
+    faces : list of tuple of int, optional
+        The faces traced from the table (:func:`trace_faces`), if known.
 
     Returns
     -------
@@ -279,10 +291,14 @@ def automorphisms(neighbours, *, validate: bool = True) -> AutomorphismGroup:
     >>> g.order, g.n_proper
     (24, 12)
     """
-    nb = check_rotation_system(neighbours) if validate else np.asarray(neighbours, np.int64)
+    if validate:
+        nb, faces = checked_faces(neighbours)
+    else:
+        nb = np.asarray(neighbours, np.int64)
+        if faces is None:
+            faces = trace_faces(nb)
     n = nb.shape[0]
     back = _back_index(nb)
-    faces = trace_faces(nb)
     label = _vertex_classes(nb, faces)
     counts = np.bincount(label)
     # root in the rarest class (ties: smallest atom index)

@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import SymmetryError
-from .automorphisms import AutomorphismGroup, automorphisms, check_rotation_system
+from .automorphisms import AutomorphismGroup, automorphisms, checked_faces
 from .geometry import (
     GEOMETRY_TOL,
     SymmetricGeometry,
@@ -59,6 +59,9 @@ __all__ = [
 CACHE_SIZE = 2048
 #: a symmetry-operation tolerance for identifying the point group of exact matrices
 OPS_TOL = 1e-6
+#: largest allowed spread of a level character within a class, or of a multiplicity
+#: from a whole number, when Hückel levels are labelled
+LABEL_TOL = 1e-6
 
 ENDOHEDRAL_NOTE = (
     "the cage's own point group is used; an inner cluster (endohedral species) or "
@@ -446,10 +449,10 @@ def cage_symmetry(cage) -> CageSymmetry:
     hit = _SYM_CACHE.get(key)
     if hit is not None:
         return hit
-    nb = check_rotation_system(nb)
-    group = automorphisms(nb, validate=False)
+    nb, faces = checked_faces(nb)
+    group = automorphisms(nb, validate=False, faces=faces)
     spectrum = adjacency_spectrum(nb)
-    emb = topological_embedding(nb, group, spectrum)
+    emb = topological_embedding(nb, group, spectrum, faces=faces)
     n_fixed = (group.perms == np.arange(nb.shape[0])[None, :]).sum(axis=1)
     match = identify_point_group(emb.ops, tol=OPS_TOL, weights=n_fixed)
     if match.table.order != group.order:
@@ -520,14 +523,36 @@ def _vib_from(symbol, table, g3n, va) -> VibrationalPrediction:
 
 
 def _level_labels(cs: CageSymmetry, levels) -> list[str]:
-    from .reduce import class_characters, reduce_representation
-
-    lam, vec = cs.spectrum
+    """Irrep label of every Hückel level, all levels reduced at once."""
+    table = cs.table
+    _, vec = cs.spectrum
     chi = level_characters(vec, levels, cs.group.perms)  # (g, L)
+    oc = np.asarray(cs.match.op_class, dtype=np.int64)
+    nc = len(table.classes)
+    onehot = np.zeros((nc, oc.size))
+    onehot[oc, np.arange(oc.size)] = 1.0
+    sizes = np.asarray(table.class_sizes, dtype=float)
+    chi_cls = (onehot @ chi) / sizes[:, None]  # (classes, L)
+    spread = np.abs(chi - chi_cls[oc]).max() if chi.size else 0.0
+    if spread > LABEL_TOL:
+        raise SymmetryError(
+            f"Hückel levels: characters differ within a class by {spread:.3g}; expected a "
+            f"class function within LABEL_TOL={LABEL_TOL:g} (the operations of "
+            f"{table.name} do not match the automorphisms)"
+        )
+    chars = np.asarray(table.characters, dtype=float)
+    mult = (chars * sizes[None, :]) @ chi_cls / np.asarray(table.norms)[:, None]  # (irreps, L)
+    whole = np.round(mult)
+    bad = np.abs(mult - whole).max() if mult.size else 0.0
+    if bad > LABEL_TOL:
+        raise SymmetryError(
+            f"Hückel levels: a level reduces to a multiplicity {bad:.3g} away from a whole "
+            f"number; expected whole numbers within LABEL_TOL={LABEL_TOL:g} (try a smaller "
+            "huckel.DEGENERACY_TOL)"
+        )
     labels = []
     for k in range(len(levels)):
-        chi_cls = class_characters(cs.table, cs.match.op_class, chi[:, k], what="level character")
-        counts = _as_counts(cs.table, reduce_representation(cs.table, chi_cls))
+        counts = {r: int(c) for r, c in zip(table.irreps, whole[:, k], strict=True) if c}
         labels.append(_irrep_sum(counts) or "?")
     return labels
 

@@ -73,8 +73,28 @@ def adjacency_spectrum(neighbours) -> tuple[np.ndarray, np.ndarray]:
     n = nb.shape[0]
     a = np.zeros((n, n))
     a[np.repeat(np.arange(n), 3), nb.ravel()] = 1.0
-    lam, vec = np.linalg.eigh(a)
+    with _single_thread_blas():
+        lam, vec = np.linalg.eigh(a)
     return lam[::-1].copy(), np.ascontiguousarray(vec[:, ::-1])
+
+
+_BLAS = []
+
+
+def _single_thread_blas():
+    """Context keeping BLAS on one thread: small eigenproblems run many times faster so."""
+    if not _BLAS:
+        try:
+            from threadpoolctl import ThreadpoolController
+
+            _BLAS.append(ThreadpoolController())
+        except ImportError:  # pragma: no cover - threadpoolctl is a core dependency
+            _BLAS.append(None)
+    if _BLAS[0] is None:  # pragma: no cover
+        import contextlib
+
+        return contextlib.nullcontext()
+    return _BLAS[0].limit(limits=1, user_api="blas")
 
 
 def eigenspaces(lam: np.ndarray, tol: float = EIGEN_TOL) -> list[tuple[int, int]]:
@@ -176,7 +196,11 @@ def _check_candidate(x, group, porders, improper_inv_mirror):
 
 
 def topological_embedding(
-    neighbours, group: AutomorphismGroup | None = None, spectrum=None, max_levels: int = 10
+    neighbours,
+    group: AutomorphismGroup | None = None,
+    spectrum=None,
+    max_levels: int = 10,
+    faces=None,
 ) -> TopologicalEmbedding:
     """Choose adjacency eigenspaces that realise every automorphism faithfully.
 
@@ -196,6 +220,8 @@ def topological_embedding(
         Precomputed ``adjacency_spectrum(neighbours)``.
     max_levels : int, default 10
         How many eigenspaces below the top one to combine.
+    faces : list of tuple of int, optional
+        Precomputed :func:`trace_faces` of the table.
 
     Raises
     ------
@@ -214,10 +240,11 @@ def topological_embedding(
     lam, vec = adjacency_spectrum(nb) if spectrum is None else spectrum
     spaces = eigenspaces(lam)[1 : 1 + max_levels]
     porders = _orders(group.perms, True)
-    faces = trace_faces(nb)
     sel = (~group.proper) & (porders == 2)
     mirror = np.zeros(group.order, dtype=bool)
     if sel.any():
+        if faces is None:
+            faces = trace_faces(nb)
         sub = AutomorphismGroup(group.perms[sel], group.proper[sel])
         mirror[sel] = _fixes_a_cell(sub, nb, faces)
     fallback = None

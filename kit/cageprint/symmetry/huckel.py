@@ -58,9 +58,8 @@ def levels_from_eigenvalues(lam, tol: float = DEGENERACY_TOL) -> list[tuple[floa
     lam = np.asarray(lam, dtype=float)
     cuts = np.flatnonzero(np.abs(np.diff(lam)) > tol) + 1
     edges = np.r_[0, cuts, len(lam)]
-    return [
-        (float(lam[a:b].mean()), int(a), int(b)) for a, b in zip(edges[:-1], edges[1:], strict=True)
-    ]
+    means = (np.add.reduceat(lam, edges[:-1]) / np.diff(edges)).tolist() if len(lam) else []
+    return list(zip(means, edges[:-1].tolist(), edges[1:].tolist(), strict=True))
 
 
 def fill_levels(degeneracies, n_electrons: int) -> list[int]:

@@ -21,12 +21,17 @@ __all__ = [
 
 
 def _orbit_groups(rep: np.ndarray) -> list[tuple[int, ...]]:
-    """Group items by orbit representative; largest orbit first, ties by smallest member."""
+    """Group items by orbit representative (the smallest member of each orbit).
+
+    Largest orbit first, ties by smallest member; members in increasing order.
+    """
     order = np.argsort(rep, kind="stable")
-    reps, starts = np.unique(rep[order], return_index=True)
-    groups = np.split(order, starts[1:])
-    out = [tuple(sorted(int(v) for v in g)) for g in groups]
-    out.sort(key=lambda g: (-len(g), g[0]))
+    reps, starts, counts = np.unique(rep[order], return_index=True, return_counts=True)
+    flat = order.tolist()
+    out = []
+    for k in np.lexsort((reps, -counts)).tolist():
+        s = int(starts[k])
+        out.append(tuple(flat[s : s + int(counts[k])]))
     return out
 
 
