@@ -242,18 +242,20 @@ def _add(*args, **kw) -> None:
 
 
 # ---------------------------------------------------------------- nonaxial groups
-# Source: Cotton 1990, Appendix IIA, nonaxial groups (C1, Cs, Ci).
+# Source: Cotton 1990, Appendix IIA, C1.
 _add("C1", """
 C1  E
 A   1
 """, linear="A", rotations="A", quadratic="A")
 
+# Source: Cotton 1990, Appendix IIA, Cs.
 _add("Cs", """
 Cs   E   σh
 A'   1   1
 A''  1  -1
 """, linear="A' A''", rotations="A' A''", quadratic="A' A''")
 
+# Source: Cotton 1990, Appendix IIA, Ci.
 _add("Ci", """
 Ci   E   i
 Ag   1   1
@@ -261,13 +263,14 @@ Au   1  -1
 """, linear="Au", rotations="Ag", quadratic="Ag")
 
 # ---------------------------------------------------------------- Cn groups
-# Source: Cotton 1990, Appendix IIA, Cn groups; C3's complex pair kept as one real E.
+# Source: Cotton 1990, Appendix IIA, C2.
 _add("C2", """
 C2  E   C2
 A   1   1
 B   1  -1
 """, linear="A B", rotations="A B", quadratic="A B")
 
+# Source: Cotton 1990, Appendix IIA, C3; complex pair kept as one real E.
 _add("C3", """
 C3  E   C3   C3^2
 A   1   1    1
@@ -275,7 +278,7 @@ E   2  -1   -1
 """, linear="A E", rotations="A E", quadratic="A E", separable="E")
 
 # ---------------------------------------------------------------- Cnv groups
-# Source: Cotton 1990, Appendix IIA, Cnv groups (C2v: B1 symmetric under σv(xz)).
+# Source: Cotton 1990, Appendix IIA, C2v (B1 symmetric under σv(xz)).
 _add("C2v", """
 C2v  E   C2   σv(xz)  σv'(yz)
 A1   1   1    1       1
@@ -284,6 +287,7 @@ B1   1  -1    1      -1
 B2   1  -1   -1       1
 """, linear="A1 B1 B2", rotations="A2 B1 B2", quadratic="A1 A2 B1 B2")
 
+# Source: Cotton 1990, Appendix IIA, C3v.
 _add("C3v", """
 C3v  E   2C3  3σv
 A1   1   1    1
@@ -292,7 +296,7 @@ E    2  -1    0
 """, linear="A1 E", rotations="A2 E", quadratic="A1 E")
 
 # ---------------------------------------------------------------- Cnh groups
-# Source: Cotton 1990, Appendix IIA, Cnh groups; C3h's complex pairs kept as real E', E''.
+# Source: Cotton 1990, Appendix IIA, C2h.
 _add("C2h", """
 C2h  E   C2   i    σh
 Ag   1   1    1    1
@@ -301,6 +305,7 @@ Au   1   1   -1   -1
 Bu   1  -1   -1    1
 """, linear="Au Bu", rotations="Ag Bg", quadratic="Ag Bg")
 
+# Source: Cotton 1990, Appendix IIA, C3h; complex pairs kept as real E' and E''.
 _add("C3h", """
 C3h  E   C3   C3^2  σh   S3   S3^5
 A'   1   1    1     1    1    1
@@ -310,7 +315,7 @@ E''  2  -1   -1    -2    1    1
 """, linear="E' A''", rotations="A' E''", quadratic="A' E' E''", separable="E' E''")
 
 # ---------------------------------------------------------------- S2n groups
-# Source: Cotton 1990, Appendix IIA, S2n groups (S4, S6 = C3i); complex pairs kept as real E.
+# Source: Cotton 1990, Appendix IIA, S4; complex pair kept as one real E.
 _add("S4", """
 S4  E   S4   C2   S4^3
 A   1   1    1    1
@@ -318,6 +323,7 @@ B   1  -1    1   -1
 E   2   0   -2    0
 """, linear="B E", rotations="A E", quadratic="A B E", separable="E")
 
+# Source: Cotton 1990, Appendix IIA, S6 (= C3i); complex pairs kept as real Eg and Eu.
 _add("S6", """
 S6   E   C3   C3^2  i    S6^5  S6
 Ag   1   1    1     1    1     1
@@ -327,7 +333,7 @@ Eu   2  -1   -1    -2    1     1
 """, linear="Au Eu", rotations="Ag Eg", quadratic="Ag Eg", separable="Eg Eu")
 
 # ---------------------------------------------------------------- Dn groups
-# Source: Cotton 1990, Appendix IIA, Dn groups.
+# Source: Cotton 1990, Appendix IIA, D2.
 _add("D2", """
 D2   E   C2(z)  C2(y)  C2(x)
 A    1   1      1      1
@@ -336,6 +342,7 @@ B2   1  -1      1     -1
 B3   1  -1     -1      1
 """, linear="B1 B2 B3", rotations="B1 B2 B3", quadratic="A B1 B2 B3")
 
+# Source: Cotton 1990, Appendix IIA, D3.
 _add("D3", """
 D3   E   2C3  3C2
 A1   1   1    1
@@ -343,6 +350,7 @@ A2   1   1   -1
 E    2  -1    0
 """, linear="A2 E", rotations="A2 E", quadratic="A1 E")
 
+# Source: Cotton 1990, Appendix IIA, D5.
 _add("D5", """
 D5   E   2C5   2C5^2  5C2
 A1   1   1     1      1
@@ -351,6 +359,7 @@ E1   2   φ-1  -φ      0
 E2   2  -φ     φ-1    0
 """, linear="A2 E1", rotations="A2 E1", quadratic="A1 E1 E2")
 
+# Source: Cotton 1990, Appendix IIA, D6.
 _add("D6", """
 D6   E   2C6  2C3  C2   3C2'  3C2''
 A1   1   1    1    1    1     1
@@ -362,7 +371,7 @@ E2   2  -1   -1    2    0     0
 """, linear="A2 E1", rotations="A2 E1", quadratic="A1 E1 E2")
 
 # ---------------------------------------------------------------- Dnh groups
-# Source: Cotton 1990, Appendix IIA, Dnh groups.
+# Source: Cotton 1990, Appendix IIA, D2h.
 _add("D2h", """
 D2h   E   C2(z)  C2(y)  C2(x)  i    σ(xy)  σ(xz)  σ(yz)
 Ag    1   1      1      1      1    1      1      1
@@ -375,6 +384,7 @@ B2u   1  -1      1     -1     -1    1     -1      1
 B3u   1  -1     -1      1     -1    1      1     -1
 """, linear="B1u B2u B3u", rotations="B1g B2g B3g", quadratic="Ag B1g B2g B3g")
 
+# Source: Cotton 1990, Appendix IIA, D3h.
 _add("D3h", """
 D3h   E   2C3  3C2  σh   2S3  3σv
 A1'   1   1    1    1    1    1
@@ -385,6 +395,7 @@ A2''  1   1   -1   -1   -1    1
 E''   2  -1    0   -2    1    0
 """, linear="E' A2''", rotations="A2' E''", quadratic="A1' E' E''")
 
+# Source: Cotton 1990, Appendix IIA, D5h.
 _add("D5h", """
 D5h   E   2C5   2C5^2  5C2  σh   2S5   2S5^3  5σv
 A1'   1   1     1      1    1    1     1      1
@@ -397,6 +408,7 @@ E1''  2   φ-1  -φ      0   -2    1-φ   φ      0
 E2''  2  -φ     φ-1    0   -2    φ     1-φ    0
 """, linear="E1' A2''", rotations="A2' E1''", quadratic="A1' E2' E1''")
 
+# Source: Cotton 1990, Appendix IIA, D6h.
 _add("D6h", """
 D6h   E   2C6  2C3  C2   3C2'  3C2''  i    2S3  2S6  σh   3σd  3σv
 A1g   1   1    1    1    1     1      1    1    1    1    1    1
@@ -414,7 +426,7 @@ E2u   2  -1   -1    2    0     0     -2    1    1   -2    0    0
 """, linear="A2u E1u", rotations="A2g E1g", quadratic="A1g E1g E2g")
 
 # ---------------------------------------------------------------- Dnd groups
-# Source: Cotton 1990, Appendix IIA, Dnd groups.
+# Source: Cotton 1990, Appendix IIA, D2d.
 _add("D2d", """
 D2d   E   2S4  C2   2C2'  2σd
 A1    1   1    1    1     1
@@ -424,6 +436,7 @@ B2    1  -1    1   -1     1
 E     2   0   -2    0     0
 """, linear="B2 E", rotations="A2 E", quadratic="A1 B1 B2 E")
 
+# Source: Cotton 1990, Appendix IIA, D3d.
 _add("D3d", """
 D3d   E   2C3  3C2  i    2S6  3σd
 A1g   1   1    1    1    1    1
@@ -434,6 +447,7 @@ A2u   1   1   -1   -1   -1    1
 Eu    2  -1    0   -2    1    0
 """, linear="A2u Eu", rotations="A2g Eg", quadratic="A1g Eg")
 
+# Source: Cotton 1990, Appendix IIA, D5d.
 _add("D5d", """
 D5d   E   2C5   2C5^2  5C2  i    2S10^3  2S10  5σd
 A1g   1   1     1      1    1    1       1     1
@@ -446,6 +460,7 @@ E1u   2   φ-1  -φ      0   -2    1-φ     φ     0
 E2u   2  -φ     φ-1    0   -2    φ       1-φ   0
 """, linear="A2u E1u", rotations="A2g E1g", quadratic="A1g E1g E2g")
 
+# Source: Cotton 1990, Appendix IIA, D6d.
 _add("D6d", """
 D6d   E   2S12  2C6  2S4  2C3  2S12^5  C2   6C2'  6σd
 A1    1   1     1    1    1    1       1    1     1
@@ -460,7 +475,7 @@ E5    2  -√3    1    0   -1    √3     -2    0     0
 """, linear="B2 E1", rotations="A2 E5", quadratic="A1 E2 E5")
 
 # ---------------------------------------------------------------- cubic groups
-# Source: Cotton 1990, Appendix IIA, cubic groups; T's and Th's complex pairs kept as real E.
+# Source: Cotton 1990, Appendix IIA, T; complex pair kept as one real E.
 _add("T", """
 T    E   4C3  4C3^2  3C2
 A    1   1    1      1
@@ -468,6 +483,7 @@ E    2  -1   -1      2
 T    3   0    0     -1
 """, linear="T", rotations="T", quadratic="A E T", separable="E")
 
+# Source: Cotton 1990, Appendix IIA, Td.
 _add("Td", """
 Td   E   8C3  3C2  6S4  6σd
 A1   1   1    1    1    1
@@ -477,6 +493,7 @@ T1   3   0   -1    1   -1
 T2   3   0   -1   -1    1
 """, linear="T2", rotations="T1", quadratic="A1 E T2")
 
+# Source: Cotton 1990, Appendix IIA, Th; complex pairs kept as real Eg and Eu.
 _add("Th", """
 Th   E   4C3  4C3^2  3C2  i    4S6  4S6^5  3σh
 Ag   1   1    1      1    1    1    1      1
@@ -488,7 +505,7 @@ Tu   3   0    0     -1   -3    0    0      1
 """, linear="Tu", rotations="Tg", quadratic="Ag Eg Tg", separable="Eg Eu")
 
 # ---------------------------------------------------------------- icosahedral groups
-# Source: Cotton 1990, Appendix IIA, icosahedral groups (I, Ih); φ = (1+√5)/2.
+# Source: Cotton 1990, Appendix IIA, I; φ = (1+√5)/2.
 _add("I", """
 I    E   12C5  12C5^2  20C3  15C2
 A    1   1     1       1     1
@@ -498,6 +515,7 @@ G    4  -1    -1       1     0
 H    5   0     0      -1     1
 """, linear="T1", rotations="T1", quadratic="A H")
 
+# Source: Cotton 1990, Appendix IIA, Ih.
 _add("Ih", """
 Ih    E   12C5  12C5^2  20C3  15C2  i    12S10  12S10^3  20S6  15σ
 Ag    1   1     1       1     1     1    1      1        1     1
