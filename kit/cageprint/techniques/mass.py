@@ -67,7 +67,7 @@ CALIBRANT_MIN_SCORE = 0.97
 #: largest calibration offset searched for, in m/z units
 MAX_CALIBRATION_OFFSET = 0.5
 #: a weak peak's mass tolerance is at least this many times its centroid uncertainty FWHM/(S/N)
-CENTROID_UNCERTAINTY_FACTOR = 1.0
+CENTROID_UNCERTAINTY_FACTOR = 2.0
 #: a "profile" whose median point spacing exceeds this (m/z) is read as a peak list
 PEAK_LIST_STEP = 0.1
 #: a species is a C2-loss fragment when at most this fraction of its C2-richer neighbour

@@ -302,8 +302,10 @@ def _greedy(z, mz, inten, ppm, floor, c13, metals, snr, noise):
             break
         best, kind = res[0]
         same = parse_formula(best.formula).counts
+        # every other formula inside the mass tolerance with an envelope about as good is
+        # reported: the spectrum cannot tell them apart
         alts = [m.formula for m, _ in res[1:]
-                if m.score >= best.score - AMBIGUITY_MARGIN
+                if m.envelope_score >= best.envelope_score - AMBIGUITY_MARGIN
                 or parse_formula(m.formula).counts == same]
         found.append({"match": best, "kind": kind, "alts": alts, "shared": attempt > 0})
         resid = np.maximum(resid - _model(found[-1:], mz, ppm, floor), 0.0)

@@ -14,6 +14,8 @@ MIN_RELATIVE_INTENSITY = 1e-4
 #: isotope step (u, neutral mass) used to walk an envelope, and its tolerance
 ISOTOPE_STEP = 1.0017
 ISOTOPE_STEP_TOL = 0.006
+#: width of the smoothing Gaussian (FWHM) as a fraction of the typical peak FWHM
+SMOOTH_FRACTION = 0.5
 #: an envelope needs at least this many isotope peaks
 MIN_ISOTOPE_PEAKS = 2
 
@@ -38,6 +40,23 @@ def _noise_and_baseline(y: np.ndarray, block: int = 512) -> tuple[float, np.ndar
     return noise, baseline
 
 
+def _smooth(y, find_peaks, peak_widths, gaussian_filter1d):
+    """Light matched smoothing: a Gaussian of SMOOTH_FRACTION of the typical peak FWHM.
+
+    The FWHM (in points) is the median over the 20 tallest local maxima; with
+    fewer than 4 points per FWHM the data are left as they are.
+    """
+    idx, props = find_peaks(y, prominence=0.05 * float(y.max() - np.median(y)))
+    if idx.size == 0:
+        return y
+    top = idx[np.argsort(-props["prominences"])[:20]]
+    fwhm_points = float(np.median(peak_widths(y, top, rel_height=0.5)[0]))
+    if fwhm_points < 4:
+        return y
+    return gaussian_filter1d(y, SMOOTH_FRACTION * fwhm_points / 2.3548200450309493,
+                             mode="nearest")
+
+
 def _centroid_profile(x, y, snr):
     """Centroids, areas and heights of the peaks of a profile spectrum.
 
@@ -45,10 +64,14 @@ def _centroid_profile(x, y, snr):
     y - half, so the window edges carry no weight); with fewer than 5 such
     points, the vertex of a parabola through ln y of the top 3 points (exact
     for a Gaussian).  Area: height x FWHM x 1.0645 (Gaussian).  Uncertainty:
-    FWHM / (S/N), used to widen the mass tolerance of weak peaks.
+    FWHM / (S/N), used to widen the mass tolerance of weak peaks.  Peaks are
+    found after a light matched smoothing (:func:`_smooth`), so S/N refers to
+    the smoothed data.
     """
+    from scipy.ndimage import gaussian_filter1d
     from scipy.signal import find_peaks, peak_widths
 
+    y = _smooth(y, find_peaks, peak_widths, gaussian_filter1d)
     noise, baseline = _noise_and_baseline(y)
     yc = y - baseline
     floor = MIN_RELATIVE_INTENSITY * float(yc.max())
