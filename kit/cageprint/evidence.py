@@ -230,6 +230,16 @@ class Candidate:
 
     def signature(self, technique: str) -> Any:
         """What a technique's comparison depends on: equal signatures, equal verdicts."""
+        cache = self.__dict__.get("_signatures")
+        if cache is None:
+            cache = {}
+            object.__setattr__(self, "_signatures", cache)
+        sig = cache.get(technique)
+        if sig is None:
+            sig = cache[technique] = self._signature(technique)
+        return sig
+
+    def _signature(self, technique: str) -> Any:
         if technique == "nmr":
             return self.nmr_sizes
         if technique == "ir":
@@ -630,23 +640,26 @@ def rank(
             groups.append([s])
     rows: list[RankedRow] = []
     position = 1
+    weighted = [t for t in with_data if w[t] > 0]
     for g in groups:
         g.sort(key=lambda s: (cands[s[0]].formula, cands[s[0]].isomer))  # display only
-        for s in g:
+        why = ""
+        if len(g) > 1:
+            same = [t for t in weighted
+                    if len({cands[s[0]].signature(t) for s in g}) == 1]
+            if not weighted:
+                why = "no weighted evidence"
+            elif len(same) == len(weighted):
+                why = ", ".join(_describe_signature(t, cands[g[0][0]]) for t in same)
+            else:
+                why = f"overall scores equal within {tie_tol:g}"
+        members = [cands[s[0]].isomer for s in g]
+        for k, s in enumerate(g):
             i, total, out, worst, reasons = s
             c = cands[i]
-            others = tuple(cands[o[0]].isomer for o in g if o[0] != i)
+            others = tuple(members[:k] + members[k + 1:])
             tie_reason = ""
             if others:
-                same = [t for t in with_data if w[t] > 0 and all(
-                    cands[o[0]].signature(t) == c.signature(t) for o in g)]
-                weighted = [t for t in with_data if w[t] > 0]
-                if not weighted:
-                    why = "no weighted evidence"
-                elif same and len(same) == len(weighted):
-                    why = ", ".join(_describe_signature(t, c) for t in same)
-                else:
-                    why = f"overall scores equal within {tie_tol:g}"
                 shown = ", ".join(str(x) for x in others[:12])
                 if len(others) > 12:
                     shown += f" and {len(others) - 12} more"
@@ -655,7 +668,7 @@ def rank(
             rows.append(RankedRow(
                 rank=position, candidate=c, score=total,
                 verdict="ruled out" if out else worst,
-                verdicts=MappingProxyType({t: per[t][i] for t in TECHNIQUE_ORDER}),
+                verdicts={t: per[t][i] for t in TECHNIQUE_ORDER},
                 tied_with=others, tie_reason=tie_reason, reasons=tuple(reasons),
             ))
         position += len(g)

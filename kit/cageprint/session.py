@@ -425,7 +425,26 @@ class Session:
 
     def verdicts(self, technique: str) -> list[TechniqueVerdict]:
         """Verdicts of one technique for every candidate, in candidate order."""
-        return [self.comparison(technique, c) for c in self.candidates]
+        _check_technique(technique)
+        obs = self.observation(technique)
+        if obs is None:
+            return [no_data(technique)] * len(self.candidates)
+        cache = self._cmp[technique]
+        compare = _COMPARE[technique]
+        opts = None
+        out = []
+        for c in self.candidates:
+            key = c.signature(technique)
+            v = cache.get(key)
+            if v is None:
+                if opts is None:
+                    names = _param_names(compare)
+                    opts = {k: val for k, val in self._thresholds[technique].items()
+                            if k in names}
+                self.stats[f"compare:{technique}"] += 1
+                v = cache[key] = compare(c, obs, **opts)
+            out.append(v)
+        return out
 
     @property
     def ranking(self) -> Ranking:

@@ -319,21 +319,23 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_miss):
     contents = np.array([sum(ki * v for ki, v in zip(k, values, strict=True))
                          for k in options], float)
     n_orb = np.array([sum(k) for k in options])
+    merge = c_merge * (n_orb - 1)
+    log_contents = np.log(contents)
+    slices = [(tuple(slice(0, d - ki) for d, ki in zip(dims, k, strict=True)),
+               tuple(slice(ki, d) for d, ki in zip(dims, k, strict=True))) for k in options]
     inf = math.inf
     dp = np.full(dims, inf)
     dp[(0,) * len(dims)] = 0.0
     choices = []
     for ell in logs:
         if ell is None:
-            line_cost = c_merge * (n_orb - 1)
+            line_cost = merge
         else:
-            z = (ell + ln_scale - np.log(contents)) / tol
-            line_cost = 0.5 * z * z + c_merge * (n_orb - 1)
+            z = (ell + ln_scale - log_contents) / tol
+            line_cost = 0.5 * z * z + merge
         new = dp + c_imp
         choice = np.full(dims, -1, dtype=np.int32)
-        for o, k in enumerate(options):
-            src = tuple(slice(0, d - ki) for d, ki in zip(dims, k, strict=False))
-            dst = tuple(slice(ki, d) for d, ki in zip(dims, k, strict=False))
+        for o, (src, dst) in enumerate(slices):
             cand = dp[src] + line_cost[o]
             cur = new[dst]
             better = cand < cur
