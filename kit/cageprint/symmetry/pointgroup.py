@@ -149,6 +149,7 @@ class _Lookup:
             if best is None or gap > best[0]:
                 best = (gap, u, keys, s)
         gap, self.u, self.keys, s = best
+        self.keys_t = np.ascontiguousarray(self.keys.T)
         if g > 1:
             d2 = 2.0 - 2.0 * (self.keys @ self.keys.T)  # keys are unit vectors
             d2[np.diag_indices(g)] = np.inf
@@ -162,17 +163,17 @@ class _Lookup:
         self.delta = max(gap / 3.0, 1e-9)
         self.smin = float(s.min()) - 2 * self.delta
         nb = int((float(s.max()) - self.smin) / self.delta) + 3
-        self.bins = np.full(min(nb, 2_000_000), -1, dtype=np.int64)
+        self.bins = np.zeros(min(nb, 2_000_000), dtype=np.int64)
         b = ((s - self.smin) / self.delta).astype(np.int64)
         if nb <= len(self.bins):
             for off in (-1, 0, 1):
                 self.bins[b + off] = np.arange(g)
 
-    def bin(self, s: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Candidate op for each projection (any shape), and a zero distance array."""
-        b = np.clip(((s - self.smin) / self.delta).astype(np.int64), 0, len(self.bins) - 1)
-        cand = self.bins[b]
-        return np.where(cand < 0, 0, cand), np.where(cand < 0, np.inf, 0.0)
+    def bin(self, s: np.ndarray) -> np.ndarray:
+        """Candidate op for each projection (any shape); a wrong one fails the vector check."""
+        b = ((s - self.smin) / self.delta).astype(np.int64)
+        np.clip(b, 0, len(self.bins) - 1, out=b)
+        return self.bins[b]
 
     def nearest(self, q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Brute-force nearest op to each row of q (the slow path)."""
@@ -182,8 +183,8 @@ class _Lookup:
 
     def find(self, q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Index of the op whose image is nearest to each row of q, and that distance."""
-        cand, d2 = self.bin(q @ _PROJ)
-        dist = np.sqrt(d2 + np.sum((self.keys[cand] - q) ** 2, axis=1))
+        cand = self.bin(q @ _PROJ)
+        dist = np.sqrt(np.sum((self.keys[cand] - q) ** 2, axis=1))
         slow = np.flatnonzero(dist > self.match_tol)
         if len(slow):
             cand[slow], dist[slow] = self.nearest(q[slow])
@@ -216,9 +217,10 @@ def _group_structure(a: np.ndarray, tol: float):
     # image of the probe under ops[i] @ ops[j]: p[i, :, j]; its projection sp[i, j]
     p = (a.reshape(3 * g, 3) @ look.keys.T).reshape(g, 3, g)
     sp = (a.transpose(0, 2, 1) @ _PROJ) @ look.keys.T
-    idx, d2 = look.bin(sp)
+    idx = look.bin(sp)
+    d2 = np.zeros(sp.shape)
     for c in range(3):
-        d2 += (p[:, c, :] - look.keys[idx, c]) ** 2
+        d2 += (p[:, c, :] - np.take(look.keys_t[c], idx)) ** 2
     idx, dist = idx.reshape(-1), np.sqrt(d2.reshape(-1))
     slow = np.flatnonzero(dist > look.match_tol)
     if len(slow):
