@@ -58,10 +58,17 @@ SMOOTH_ORDER = 3
 BASELINE_LAM = 1e6
 #: cap of the scaled smoothness (larger values lose numerical precision)
 BASELINE_LAM_MAX = 1e11
+#: longer spectra are bin-averaged to at most this many points for the baseline fit, and the
+#: baseline interpolated back (baselines are smooth; this keeps 10^5-10^6 points fast)
+BASELINE_MAX_POINTS = 20_000
 #: pybaselines methods accepted by name
 BASELINE_METHODS = ("arpls", "asls", "airpls", "iarpls", "drpls", "modpoly", "imodpoly", "snip")
 #: at most this many points either side of the apex enter a centre fit
 FIT_MAX_HALF_POINTS = 50
+#: candidates whose apex is below this fraction of the S/N (or min_height) level are not fitted
+HEIGHT_PREFILTER = 0.7
+#: valley levels for the local-contrast test are averaged over +-this many points
+VALLEY_HALF_POINTS = 2
 #: a picked peak's area is integrated over +-AREA_FWHM x FWHM (cut at neighbouring peaks)
 AREA_FWHM = 3.0
 #: integrate(): default half width of a region, in multiples of the median FWHM
@@ -182,17 +189,29 @@ def estimate_baseline(
     from pybaselines import Baseline
 
     params = dict(params)
+    x, y = spectrum.x, spectrum.y
+    factor = -(-x.size // BASELINE_MAX_POINTS)
+    if factor > 1:
+        m = x.size // factor
+        xb = x[: m * factor].reshape(m, factor).mean(axis=1)
+        yb = y[: m * factor].reshape(m, factor).mean(axis=1)
+    else:
+        xb, yb = x, y
     if method in ("arpls", "asls", "airpls", "iarpls", "drpls") and "lam" not in params:
-        params["lam"] = _default_lam(len(spectrum))
-    fitter = Baseline(x_data=spectrum.x)
+        params["lam"] = _default_lam(xb.size)
+    fitter = Baseline(x_data=xb)
     try:
-        base, info = getattr(fitter, method)(spectrum.y, **params)
+        base, info = getattr(fitter, method)(yb, **params)
     except (TypeError, ValueError) as exc:
         raise SpectrumError(f"baseline method {method!r} failed with {params}: {exc}") from None
-    diag = {"method": method, "params": {k: v for k, v in params.items()}}
+    base = np.asarray(base, dtype=float)
+    if factor > 1:
+        base = np.interp(x, xb, base)
+    diag = {"method": method, "params": {k: v for k, v in params.items()},
+            "bin_factor": int(factor)}
     if "tol_history" in info:
         diag["iterations"] = int(len(info["tol_history"]))
-    return np.asarray(base, dtype=float), diag
+    return base, diag
 
 
 def remove_baseline(
@@ -214,12 +233,35 @@ def remove_baseline(
     return spectrum.replace(y=spectrum.y - base, meta=meta), {**diag, "baseline": base}
 
 
+#: second differences beyond this many sigma (and NOISE_DILATE points around them) are
+#: left out of the noise estimate in a second and third pass (peaks, spikes)
+NOISE_CLIP = 3.5
+NOISE_DILATE = 3
+
+
 def _noise_sigma(y: np.ndarray) -> float:
     if y.size < 5:
         return float("nan")
     d2 = y[:-2] - 2.0 * y[1:-1] + y[2:]
-    mad = np.median(np.abs(d2 - np.median(d2)))
-    return float(1.4826 * mad / np.sqrt(6.0))
+    med = np.median(d2)
+    s = 1.4826 * np.median(np.abs(d2 - med))
+    for _ in range(3):
+        if s == 0:
+            break
+        bad = np.abs(d2 - med) > NOISE_CLIP * s
+        if not bad.any():
+            break
+        bad = np.convolve(bad, np.ones(2 * NOISE_DILATE + 1), mode="same") > 0
+        keep = d2[~bad]
+        if keep.size < max(5, d2.size // 4):
+            break
+        med = np.median(keep)
+        s_new = 1.4826 * np.median(np.abs(keep - med))
+        if abs(s_new - s) <= 1e-3 * s:
+            s = s_new
+            break
+        s = s_new
+    return float(s / np.sqrt(6.0))
 
 
 def estimate_noise(spectrum: Spectrum, region: tuple[float, float] | None = None) -> tuple[
@@ -381,7 +423,24 @@ def _fit_centre(x, y, i, k, how):
     h = c - b * b / (4 * a)
     if how == "gaussian":
         h = np.exp(h)
-    return x0 + tv * scale, h, True
+    centre = x0 + tv * scale
+    kh = max(1, k // 2)
+    if how == "parabola":
+        # the height from a parabola over half the window (a wide parabola sits below a
+        # Lorentzian apex), around the sample nearest the centre and evaluated at the centre
+        i2 = int(np.clip(np.searchsorted(x, centre), 1, x.size - 1))
+        i2 = i2 - 1 if abs(x[i2 - 1] - centre) < abs(x[i2] - centre) else i2
+        lo2, hi2 = max(0, i2 - kh), min(x.size, i2 + kh + 1)
+        if hi2 - lo2 >= 3:
+            t2 = (x[lo2:hi2] - centre) / scale
+            a2, b2, c2 = np.polyfit(t2, y[lo2:hi2], 2)
+            if a2 < 0:
+                h = c2
+    return centre, h, True
+
+
+def _valley_level(y: np.ndarray, v: int) -> float:
+    return float(np.mean(y[max(0, v - VALLEY_HALF_POINTS): v + VALLEY_HALF_POINTS + 1]))
 
 
 def _lorentz(x, x0, h, w):
@@ -428,8 +487,11 @@ def pick_peaks(
     prominence : float, optional
         Least prominence (y units) a candidate needs; default ``snr x noise``.
     snr : float or None
-        Least height above baseline / noise sigma (default ``PEAK_SNR``);
-        None switches the test off.
+        Least height above baseline / noise sigma (default ``PEAK_SNR``); a
+        peak must also stand this many sigma above the higher of its two
+        neighbouring valleys (averaged over +-``VALLEY_HALF_POINTS``), so
+        noise on the flank of a strong line is not taken for a line.  None
+        switches both tests off.
     min_separation : float, optional
         Peaks closer than this (x units) are merged (see :func:`merge_peaks`).
     region : (lo, hi), optional
@@ -443,8 +505,10 @@ def pick_peaks(
     fit : {"parabola", "gaussian", "lorentzian", "none"}
         How centres (and heights) are refined: least-squares parabola (or
         parabola of log y for "gaussian") over the points within half a FWHM
-        of the apex; "lorentzian" adds a non-linear fit that also gives the
-        width; "none" keeps the apex sample.
+        of the apex (at least one either side), the parabola's height taken
+        from half that window around the centre; "lorentzian" adds a
+        non-linear fit that also gives the width; "none" keeps the apex
+        sample.
     noise : float, optional
         Noise sigma, if known; else :func:`estimate_noise` of the
         baseline-corrected data.
@@ -493,7 +557,15 @@ def pick_peaks(
     diag.update({"prominence": float(prom), "snr": snr, "fit": fit,
                  "min_separation": min_separation, "min_height": min_height})
 
-    idx, props = find_peaks(ys, prominence=prom if prom > 0 else None)
+    # cheap pre-filter on the apex sample before any fitting (fits rarely exceed the apex
+    # by much): candidates below HEIGHT_PREFILTER x the S/N (or min_height) level are counted
+    floor = [v for v in ((snr or 0.0) * sigma * HEIGHT_PREFILTER if np.isfinite(sigma) else 0.0,
+                         (min_height or 0.0) * HEIGHT_PREFILTER) if v > 0]
+    idx, props = find_peaks(ys, prominence=prom if prom > 0 else None,
+                            height=max(floor) if floor else None)
+    diag["below_height_prefilter"] = int(
+        find_peaks(ys, prominence=prom if prom > 0 else None)[0].size - idx.size
+    ) if floor else 0
     rejected: list[dict] = []
     n = x.size
     if idx.size == 0:
@@ -505,6 +577,9 @@ def pick_peaks(
     valleys = [int(a + np.argmin(ys[a:b + 1])) for a, b in zip(idx[:-1], idx[1:], strict=True)]
     lb = np.array([0] + valleys)
     rb = np.array(valleys + [n - 1])
+    # outer valleys: the lowest point between the spectrum's ends and the first/last candidate
+    outer = np.array([int(np.argmin(ys[: idx[0] + 1]))] + valleys
+                     + [int(idx[-1] + np.argmin(ys[idx[-1]:]))])
     apex = ys[idx]
     good = apex > 0
     wid = np.full(idx.size, np.nan)
@@ -539,6 +614,17 @@ def pick_peaks(
             rejected.append({"position": float(centre),
                              "reason": f"S/N {ratio:.2f} below snr={snr}"})
             continue
+        if snr is not None and sigma > 0:
+            # contrast over the local background: the higher of the two neighbouring valleys,
+            # each averaged over +-VALLEY_HALF_POINTS (a noise bump on the flank of a strong
+            # line stands high above the baseline but not above that line's tail)
+            back = max(_valley_level(yc, int(outer[j])), _valley_level(yc, int(outer[j + 1])))
+            contrast = (height - max(back, 0.0)) / sigma
+            if contrast < snr:
+                rejected.append({"position": float(centre),
+                                 "reason": f"local contrast {contrast:.2f} (over the "
+                                           f"neighbouring valley) below snr={snr}"})
+                continue
         if min_height is not None and height < min_height:
             rejected.append({"position": float(centre),
                              "reason": f"height {height:.4g} below min_height={min_height}"})
