@@ -184,3 +184,11 @@ def test_crash_half_way_through_the_write(session, tmp_path, monkeypatch):
         save_record(make_record(session), p)
     assert p.read_text() == old
     assert sorted(f.name for f in tmp_path.iterdir()) == ["rec.json"]
+
+
+def test_write_report_from_a_session(session, tmp_path):
+    rec = report.write_report(session, tmp_path / "r.html", record_path=tmp_path / "r.json",
+                              figures_html={"<i>extra</i>": "<div>pre-rendered</div>"})
+    assert load_record(tmp_path / "r.json")["ranking"] == rec["ranking"]
+    page = (tmp_path / "r.html").read_text()
+    assert "<h3>&lt;i&gt;extra&lt;/i&gt;</h3><div>pre-rendered</div>" in page

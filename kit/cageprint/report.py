@@ -44,6 +44,7 @@ __all__ = [
     "record_ranking",
     "render_html",
     "save_report",
+    "write_report",
     "svg_spectrum",
 ]
 
@@ -404,3 +405,39 @@ def render_html(record: Mapping[str, Any], *, session: Any = None,
 def save_report(path: str | Path, record: Mapping[str, Any], **options: Any) -> Path:
     """Render the HTML report of a record and write it atomically."""
     return atomic_write_text(path, render_html(record, **options))
+
+
+def write_report(session: Any, path: str | Path, *, record_path: str | Path | None = None,
+                 figures_html: Mapping[str, str] | None = None,
+                 nmr_sticks: Sequence[tuple[float, float]] | None = None) -> dict[str, Any]:
+    """Make the record of a session, write the HTML report (and the record JSON if asked).
+
+    ``nmr_sticks`` defaults to the estimated stick spectrum of the first-ranked
+    candidate when its cage can be rebuilt (else none).  Returns the record.
+    """
+    record = make_record(session)
+    if record_path is not None:
+        save_record(record, record_path)
+    if nmr_sticks is None:
+        nmr_sticks = first_candidate_sticks(session)
+    save_report(path, record, session=session, figures_html=figures_html,
+                nmr_sticks=nmr_sticks)
+    return record
+
+
+def first_candidate_sticks(session: Any) -> list[tuple[float, float]]:
+    """Estimated 13C sticks (ppm, carbons) of the first-ranked candidate, or [] if unavailable."""
+    from .errors import CageprintError
+
+    first = session.ranking.top()
+    if "nmr" not in session.spectra or not first or not first[0].candidate.spiral:
+        return []
+    try:
+        from .cage import Cage
+        from .techniques.nmr import estimated_stick_spectrum
+
+        c = first[0].candidate
+        st = estimated_stick_spectrum(Cage.from_spiral(c.n, c.spiral))
+    except (CageprintError, ImportError):
+        return []
+    return list(zip(st.positions, st.heights, strict=True))

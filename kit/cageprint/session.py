@@ -284,13 +284,16 @@ class Session:
             spectrum = load_spectrum(source, format=format, technique=technique, **options)
             if name is None and isinstance(source, (str, Path)):
                 name = Path(source).name
-            spectrum = as_peak_list_if_sparse(spectrum)
         self.set_spectrum(technique, spectrum, name=name)
         return spectrum
 
     def set_spectrum(self, technique: str, spectrum: Spectrum, *,
                      name: str | None = None) -> None:
-        """Use an already-read spectrum for a technique."""
+        """Use an already-read spectrum for a technique.
+
+        A short, irregularly spaced "profile" (a plain two-column peak list)
+        is taken as a peak list (see :func:`as_peak_list_if_sparse`).
+        """
         _check_technique(technique)
         if not isinstance(spectrum, Spectrum):
             raise SessionError(f"set_spectrum: expected a Spectrum; got "
@@ -298,6 +301,7 @@ class Session:
         if spectrum.technique != technique:
             raise SessionError(f"set_spectrum({technique!r}): the spectrum is a "
                                f"{spectrum.technique!r} spectrum")
+        spectrum = as_peak_list_if_sparse(spectrum)
         self.spectra[technique] = spectrum
         self.sources[technique] = name or str(spectrum.meta.get("source", "") or
                                               spectrum.meta.get("origin", "") or "")

@@ -141,26 +141,8 @@ def _print_table(ranking, top: int, out) -> None:
         print("every candidate is ruled out by the evidence as weighted", file=out)
 
 
-def _sticks(session) -> list[tuple[float, float]]:
-    """Estimated 13C sticks of the first-ranked candidate, or none if unavailable."""
-    from ..errors import CageprintError
-
-    first = session.ranking.top()
-    if "nmr" not in session.spectra or not first or not first[0].candidate.spiral:
-        return []
-    try:
-        from ..cage import Cage
-        from ..techniques.nmr import estimated_stick_spectrum
-
-        c = first[0].candidate
-        st = estimated_stick_spectrum(Cage.from_spiral(c.n, c.spiral))
-    except (CageprintError, ImportError):
-        return []
-    return list(zip(st.positions, st.heights, strict=True))
-
-
 def run(args) -> int:
-    from ..report import make_record, save_record, save_report
+    from ..report import first_candidate_sticks, make_record, save_record, save_report
 
     session = build_session(args)
     ranking = session.ranking
@@ -179,6 +161,7 @@ def run(args) -> int:
             save_record(record, args.record)
             print(f"record written to {args.record}", file=sys.stderr)
         if args.report:
-            save_report(args.report, record, session=session, nmr_sticks=_sticks(session))
+            save_report(args.report, record, session=session,
+                        nmr_sticks=first_candidate_sticks(session))
             print(f"report written to {args.report}", file=sys.stderr)
     return 0
