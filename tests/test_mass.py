@@ -160,6 +160,18 @@ def test_c13_enrichment_fitted_back():
     assert sorted(sp.formula for sp in fixed.species) == ["C60", "C70"]
 
 
+def test_enriched_mixture_with_offset():
+    # invented truth: a 2 % 13C sample with a 0.3 m/z offset; with c13="fit" the C_n ladder
+    # still calibrates and every species is found with its fraction (+-0.3 %)
+    s = synthetic_mass_spectrum(MIXTURE, c13=0.02, offset=0.3, seed=13)
+    obs = observe_mass(s, c13="fit")
+    assert sorted((sp.formula, sp.charge) for sp in obs.species) == sorted(
+        (f, z) for f, z, _ in MIXTURE)
+    assert obs.diagnostics["calibration_offset"] == pytest.approx(0.3, abs=0.002)
+    for sp in obs.species:
+        assert abs(sp.c13 - 0.02) < 0.003
+
+
 def test_noise_only_gives_no_species():
     # invented truth: seeded noise with no signal has no peak above PEAK_SNR; a few isolated
     # spikes are peaks but form no isotope envelope, so no species either

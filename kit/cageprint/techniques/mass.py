@@ -222,13 +222,32 @@ class MassObservation:
 # ------------------------------------------------------------------ calibration
 
 
-def _ladder_residual(z, mz, inten):
+def _ladder_residual(z, mz, inten, c13=C13_NATURAL):
     """Fit the best C_n (n even) to an envelope without a mass tolerance.
 
-    Returns (cosine, residual in m/z, n) of the best alignment, or None.
+    ``c13`` is the 13C fraction, or ``"fit"`` to take, for each alignment, the
+    fraction that fits the envelope best.  Returns (cosine, residual in m/z, n)
+    of the best alignment, or None.
     """
+    from scipy.optimize import minimize_scalar
+
     masses = neutral_mass(mz, z)
     b = int(np.argmax(inten))
+    norm_i = float(np.linalg.norm(inten))
+
+    def fit(n_try, nominals, p):
+        env = _envelope_cached(f"C{n_try}", 0, round(float(p), 5))
+        k = nominals - env.nominal[0]
+        t = np.zeros(k.size)
+        ok = (k >= 0) & (k < env.nominal.size)
+        t[ok] = env.abundance[k[ok]]
+        if t.sum() <= 0:
+            return None
+        cos = float(t @ inten) / float(np.linalg.norm(env.abundance) * norm_i)
+        w = t * inten
+        resid = float(np.sum(w[ok] * (masses[ok] - env.mz[k[ok]])) / np.sum(w[ok])) / abs(z)
+        return cos, resid, n_try
+
     best = None
     for s in (-1, 0, 1):
         nb = int(np.round(masses[b])) + s
@@ -237,18 +256,16 @@ def _ladder_residual(z, mz, inten):
         for n_try in (n, n - 2):
             if n_try < CAGE_SIZES[0] or n_try > CAGE_SIZES[-1]:
                 continue
-            env = _envelope_cached(f"C{n_try}", 0, C13_NATURAL)
-            k = nominals - env.nominal[0]
-            t = np.zeros(k.size)
-            ok = (k >= 0) & (k < env.nominal.size)
-            t[ok] = env.abundance[k[ok]]
-            if t.sum() <= 0:
-                continue
-            cos = float(t @ inten) / float(np.linalg.norm(env.abundance) * np.linalg.norm(inten))
-            w = t * inten
-            resid = float(np.sum(w[ok] * (masses[ok] - env.mz[k[ok]])) / np.sum(w[ok])) / abs(z)
-            if best is None or cos > best[0] + 1e-9:
-                best = (cos, resid, n_try)
+            p = c13
+            if c13 == "fit":
+                res = minimize_scalar(
+                    lambda q, n_try=n_try, nominals=nominals: -(
+                        (fit(n_try, nominals, q) or (0.0,))[0]),
+                    bounds=(0.0, 0.5), method="bounded", options={"xatol": 1e-4})
+                p = float(res.x)
+            r = fit(n_try, nominals, p)
+            if r is not None and (best is None or r[0] > best[0] + 1e-9):
+                best = r
     return best
 
 
@@ -355,7 +372,8 @@ def observe_mass(
     calib: list[dict[str, Any]] = []
     if calibrate is True:
         for z, members in chains:
-            r = _ladder_residual(sign * z, pmz[members], parea[members])
+            r = _ladder_residual(sign * z, pmz[members], parea[members],
+                                 c13 if c13 == "fit" else c13_fixed)
             if r and r[0] >= CALIBRANT_MIN_SCORE and abs(r[1]) <= MAX_CALIBRATION_OFFSET:
                 calib.append({"formula": f"C{r[2]}", "charge": sign * z,
                               "offset": r[1], "score": r[0]})
