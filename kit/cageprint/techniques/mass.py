@@ -406,7 +406,8 @@ def observe_mass(
             unexplained.append({"charge": zs, "mz": [round(v, 5) for v in emz.tolist()],
                                 "reason": "no candidate formula within tolerance "
                                 f"({ppm} ppm, floor {floor}) and envelope score "
-                                f">= {ENVELOPE_MIN_SCORE}"})
+                                f">= {ENVELOPE_MIN_SCORE}; raise ppm/floor for "
+                                "low-resolution data, pass c13='fit' for enriched samples"})
         found.extend(chosen)
 
     total_max = max((f["match"].scale for f in found), default=1.0) or 1.0
