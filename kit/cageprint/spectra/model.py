@@ -105,6 +105,34 @@ class Spectrum:
     def __len__(self) -> int:
         return int(self.x.size)
 
+    def to_dict(self) -> dict:
+        """Plain, JSON-ready dict (lists and strings); inverse of :meth:`from_dict`.
+
+        Examples
+        --------
+        >>> s = Spectrum([1.0, 2.0], [3.0, 4.0], technique="mass", meta={"title": "t"})
+        >>> Spectrum.from_dict(s.to_dict()).to_dict() == s.to_dict()
+        True
+        """
+        return {
+            "x": self.x.tolist(), "y": self.y.tolist(), "technique": self.technique,
+            "x_unit": self.x_unit, "y_unit": self.y_unit, "kind": self.kind,
+            "widths": None if self.widths is None else self.widths.tolist(),
+            "meta": _plain(self.meta),
+        }
+
+    @classmethod
+    def from_dict(cls, d: Mapping[str, Any]) -> Spectrum:
+        """Rebuild a spectrum from :meth:`to_dict` output."""
+        try:
+            return cls(
+                d["x"], d["y"], technique=d["technique"], x_unit=d.get("x_unit", ""),
+                y_unit=d.get("y_unit", "intensity"), kind=d.get("kind", "profile"),
+                widths=d.get("widths"), meta=d.get("meta", {}),
+            )
+        except KeyError as exc:
+            raise SpectrumError(f"spectrum dict lacks the key {exc.args[0]!r}") from None
+
     def replace(self, **changes: Any) -> Spectrum:
         """Return a copy with some fields changed (the original is untouched)."""
         fields = dict(
@@ -113,3 +141,16 @@ class Spectrum:
         )
         fields.update(changes)
         return Spectrum(**fields)
+
+
+def _plain(obj: Any) -> Any:
+    """Nested mappings, sequences and numpy values as plain Python (for JSON)."""
+    if isinstance(obj, Mapping):
+        return {str(k): _plain(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_plain(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return obj.tolist()
+    if isinstance(obj, np.generic):
+        return obj.item()
+    return obj

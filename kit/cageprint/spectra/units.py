@@ -223,7 +223,8 @@ def transmittance_to_absorbance(t, percent: bool = False):
     if np.any(t <= 0):
         bad = int(np.flatnonzero(t <= 0)[0])
         raise SpectrumError(
-            f"transmittance must be > 0 to convert to absorbance; value #{bad} is {t.flat[bad]!r}"
+            "transmittance must be > 0 to convert to absorbance; "
+            f"value #{bad} is {float(t.flat[bad])!r}"
         )
     return -np.log10(t)
 
