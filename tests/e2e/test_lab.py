@@ -56,13 +56,16 @@ def lab(tmp_path_factory):
         pytest.skip("no Chromium found (looked for " + ", ".join(CHROMIUM_NAMES)
                     + "); install one, e.g. `apt-get install chromium`, to run the browser test")
     pytest.importorskip("playwright.sync_api", reason="python playwright is not installed")
-    from cageprint.demo import ensure_demo
+    from cageprint.demo import default_demo_dir, ensure_demo, is_current
 
     base = tmp_path_factory.mktemp("lab")
     work = base / "notebooks"
     work.mkdir()
     shutil.copy(ROOT / "notebooks" / NOTEBOOK, work / NOTEBOOK)
-    ensure_demo(work / "demo-data")
+    if is_current(default_demo_dir()):
+        shutil.copytree(default_demo_dir(), work / "demo-data")
+    else:
+        ensure_demo(work / "demo-data")
     settings = base / "settings"
     settings.mkdir()
     shutil.copy(ROOT / "binder" / "overrides.json", settings / "overrides.json")
@@ -124,7 +127,11 @@ def test_threshold_change_updates_the_comparison_table(lab):
             page.locator(".lm-MenuBar-itemLabel", has_text="Run").first.click()
             page.get_by_role("menuitem", name="Run All Cells", exact=True).click()
             table = panel.locator(".cp-comparison table[data-cp-table='comparison']").first
-            table.wait_for(timeout=120_000)
+            failed = panel.locator(
+                ".jp-OutputArea-output[data-mime-type='application/vnd.jupyter.stderr']").first
+            table.or_(failed).wait_for(timeout=120_000)
+            if failed.is_visible():
+                pytest.fail("a cell failed in JupyterLab:\n" + failed.inner_text()[-2000:])
             panel.locator(".cp-compare-figure .js-plotly-plot .main-svg").first.wait_for(
                 timeout=60_000)
             before = table.get_attribute("data-observed")
