@@ -1,0 +1,95 @@
+"""Interaction latency of the live widgets with 450 candidates (all IPR isomers of C100).
+
+Measures, without a browser, the time from a control change to an updated
+comparison table and figure (session recompute of the affected technique,
+ranking, HTML table, FigureWidget batch update and state sync).  Target:
+< 100 ms.  Prints figures; asserts nothing about time.
+
+Run: .venv/bin/python tests/benchmarks/bench_widgets.py
+"""
+
+from __future__ import annotations
+
+import statistics
+import time
+
+import numpy as np
+
+from cageprint.demo import synth
+from cageprint.session import Session
+from cageprint.spectra import Spectrum
+from cageprint.widgets import AssignmentBoard, CandidateChooser, ComparisonPanel
+
+
+def _spectrum(sizes, seed=7) -> Spectrum:
+    """An invented 13C profile with one line per orbit (seeded shifts and noise)."""
+    rng = np.random.default_rng(seed)
+    x = np.linspace(120.0, 160.0, 20001)
+    shifts = np.sort(rng.uniform(130.0, 152.0, len(sizes)))
+    y = synth.lines(x, shifts, 0.25 * np.asarray(sizes, float), 0.03)
+    y += rng.normal(0.0, 0.01, x.size)
+    return Spectrum(x, y, technique="nmr", meta={"title": "invented C100 13C"})
+
+
+def _timed(fn, repeats: int) -> list[float]:
+    out = []
+    for i in range(repeats):
+        t0 = time.perf_counter()
+        fn(i)
+        out.append((time.perf_counter() - t0) * 1e3)
+    return out
+
+
+def _report(label: str, ms: list[float]) -> None:
+    print(f"{label:<44} median {statistics.median(ms):7.1f} ms   max {max(ms):7.1f} ms   "
+          f"(n={len(ms)})")
+
+
+def main() -> None:
+    t0 = time.perf_counter()
+    session = Session("C100")
+    session.set_candidates(ipr=True)
+    n = len(session.candidates)
+    print(f"candidates: {n} IPR isomers of C100, built in {time.perf_counter() - t0:.1f} s "
+          "(fingerprints; once per session)")
+    session.set_spectrum("nmr", _spectrum(session.candidates[0].nmr_sizes))
+    t0 = time.perf_counter()
+    panel = ComparisonPanel(session, "nmr")
+    print(f"comparison panel built in {(time.perf_counter() - t0) * 1e3:.0f} ms")
+    snr_values = [v for _, v in panel.snr.options][:4]
+
+    def snr(i):
+        panel.snr.value = snr_values[(i + 1) % len(snr_values)]
+
+    def region(i):
+        lo, hi = panel.region.value
+        panel.region.value = (lo + (0.5 if i % 2 == 0 else -0.5), hi)
+
+    picks = [c.isomer for c in session.candidates]
+
+    def pick(i):
+        panel.pick.value = tuple(picks[(5 * i) % n:(5 * i) % n + 5])
+
+    _report("S/N threshold -> table + figure", _timed(snr, 12))
+    _report("region -> table + figure", _timed(region, 12))
+    _report("candidate pick -> table", _timed(pick, 12))
+
+    board = AssignmentBoard(session)
+
+    def weight(i):
+        board.weights["nmr"].value = 1.0 + 0.1 * ((i % 5) + 1)
+
+    _report("weight -> ranked table (450 rows, 50 drawn)", _timed(weight, 12))
+
+    chooser = CandidateChooser(session, "C100", ipr=True)
+    groups = [g for g in chooser.point_group.options if g != "any"]
+
+    def filt(i):
+        chooser.point_group.value = groups[i % len(groups)] if i % 2 else "any"
+
+    _report("chooser filter -> candidate table", _timed(filt, 12))
+    print("target: < 100 ms from a control change to the updated table and figure")
+
+
+if __name__ == "__main__":
+    main()
