@@ -194,6 +194,17 @@ def test_sloping_baseline():
     assert sorted(sp.formula for sp in obs.species) == ["C60", "C70"]
 
 
+def test_picked_peaks_sit_on_the_spectrum():
+    # invented truth: peaks_mz / peaks_intensity are on the spectrum's own axes (for plots):
+    # the tallest picked peak is within 2 % of the tallest point, at its m/z before calibration
+    s = synthetic_mass_spectrum([("C60", 1, 1.0)], seed=1, offset=0.3, noise=0.001)
+    obs = observe_mass(s)
+    i = int(np.argmax(obs.peaks_intensity))
+    assert obs.peaks_intensity[i] == pytest.approx(s.y.max(), rel=0.02)
+    assert obs.peaks_mz[i] == pytest.approx(s.x[int(np.argmax(s.y))], abs=0.01)
+    assert obs.peaks_area[i] < obs.peaks_intensity[i]
+
+
 def test_observation_frame_and_round_trip():
     obs = observe_mass(synthetic_mass_spectrum(MIXTURE, seed=1))
     df = obs.to_frame()

@@ -183,7 +183,12 @@ class MassObservation:
     envelopes : tuple of ObservedEnvelope
         Every isotope envelope found (explained or not).
     peaks_mz, peaks_intensity : ndarray
-        All peaks above the threshold, m/z corrected for the calibration offset.
+        All peaks above the threshold on the spectrum's own axes (m/z as
+        measured, before the calibration correction; apex intensity including
+        the baseline), ready to mark on a plot of the spectrum.
+    peaks_area : ndarray
+        Peak areas (profile data) or listed intensities (peak lists): the
+        intensities the envelopes are fitted to.
     diagnostics : mapping
         Thresholds, noise, baseline, calibration offset and calibrants,
         unexplained envelopes and unassigned peaks.
@@ -193,6 +198,7 @@ class MassObservation:
     envelopes: tuple[ObservedEnvelope, ...]
     peaks_mz: np.ndarray
     peaks_intensity: np.ndarray
+    peaks_area: np.ndarray | None = None
     diagnostics: Any = field(default_factory=dict)
 
     @property
@@ -353,10 +359,11 @@ def observe_mass(
     if read_as == "profile" and x.size > 1 and float(np.median(np.diff(x))) > PEAK_LIST_STEP:
         read_as = "peaks"  # points further apart than any profile sampling: a stick list
     if read_as == "profile":
-        pmz, parea, _, noise, thr, punc = _centroid_profile(x, y, snr)
+        pmz, parea, papex, noise, thr, punc = _centroid_profile(x, y, snr)
     else:
         keep = y >= MIN_RELATIVE_INTENSITY * (y.max() if y.size else 0)
         pmz, parea = x[keep & (y > 0)], y[keep & (y > 0)]
+        papex = parea
         punc = np.zeros(pmz.size)
         noise, thr = float("nan"), float(MIN_RELATIVE_INTENSITY * y.max())
     if pmz.size == 0:
@@ -474,7 +481,8 @@ def observe_mass(
         "unassigned_peaks": tuple(round(float(v), 5) for v in cmz[free]),
     }
     return MassObservation(
-        species=tuple(species), envelopes=tuple(envelopes), peaks_mz=cmz, peaks_intensity=parea,
+        species=tuple(species), envelopes=tuple(envelopes), peaks_mz=pmz, peaks_intensity=papex,
+        peaks_area=parea,
         diagnostics=MappingProxyType(diagnostics),
     )
 

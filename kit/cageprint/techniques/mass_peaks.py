@@ -44,21 +44,24 @@ def _smooth(y, find_peaks, peak_widths, gaussian_filter1d):
     """Light matched smoothing: a Gaussian of SMOOTH_FRACTION of the typical peak FWHM.
 
     The FWHM (in points) is the median over the 20 tallest local maxima; with
-    fewer than 4 points per FWHM the data are left as they are.
+    fewer than 4 points per FWHM the data are left as they are.  Returns the
+    data and the factor by which a peak apex was lowered.
     """
     idx, props = find_peaks(y, prominence=0.05 * float(y.max() - np.median(y)))
     if idx.size == 0:
-        return y
+        return y, 1.0
     top = idx[np.argsort(-props["prominences"])[:20]]
     fwhm_points = float(np.median(peak_widths(y, top, rel_height=0.5)[0]))
     if fwhm_points < 4:
-        return y
-    return gaussian_filter1d(y, SMOOTH_FRACTION * fwhm_points / 2.3548200450309493,
-                             mode="nearest")
+        return y, 1.0
+    smoothed = gaussian_filter1d(y, SMOOTH_FRACTION * fwhm_points / 2.3548200450309493,
+                                 mode="nearest")
+    # a Gaussian peak convolved with a Gaussian keeps its area; its apex drops by this factor
+    return smoothed, 1.0 / np.sqrt(1.0 + SMOOTH_FRACTION**2)
 
 
 def _centroid_profile(x, y, snr):
-    """Centroids, areas and heights of the peaks of a profile spectrum.
+    """Centroids, areas and apex heights (with baseline) of the peaks of a profile spectrum.
 
     Centroid: intensity-weighted mean of the points above half height (weights
     y - half, so the window edges carry no weight); with fewer than 5 such
@@ -71,7 +74,7 @@ def _centroid_profile(x, y, snr):
     from scipy.ndimage import gaussian_filter1d
     from scipy.signal import find_peaks, peak_widths
 
-    y = _smooth(y, find_peaks, peak_widths, gaussian_filter1d)
+    y, apex_factor = _smooth(y, find_peaks, peak_widths, gaussian_filter1d)
     noise, baseline = _noise_and_baseline(y)
     yc = y - baseline
     floor = MIN_RELATIVE_INTENSITY * float(yc.max())
@@ -115,7 +118,8 @@ def _centroid_profile(x, y, snr):
     area = height * fwhm * 1.0644670194312262
     # centroid uncertainty of a noisy Gaussian peak, of order FWHM / (S/N)
     uncertainty = fwhm * noise / np.maximum(height, 1e-300)
-    return centre, area, height, noise, thr, uncertainty
+    apex = height / apex_factor + baseline[idx]
+    return centre, area, apex, noise, thr, uncertainty
 
 
 # ------------------------------------------------------------------ envelopes (chains)
