@@ -147,6 +147,7 @@ def stick_figure(
     peaks: Any = None,
     title: str = "measured and predicted",
     note: str = "",
+    region: tuple[float, float] | None = None,
 ) -> go.Figure:
     """Measured spectrum on top, one predicted stick spectrum per candidate below.
 
@@ -161,7 +162,7 @@ def stick_figure(
     >>> len(fig.data)
     3
     """
-    fig = spectrum_figure(spectrum, peaks, title=title)
+    fig = spectrum_figure(spectrum, peaks, title=title, region=region)
     ymax = float(np.max(np.abs(spectrum.y))) or 1.0
     for k, (label, (pos, inten)) in enumerate(sticks.items()):
         pos = np.asarray(pos, float)

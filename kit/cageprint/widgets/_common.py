@@ -72,11 +72,13 @@ def record(fig: go.Figure | None = None, table_html: str | None = None,
         plain.show()
 
 
-def conclude(summary: str, **facts: Any) -> dict:
-    """Print what a notebook concluded, plus a machine-readable copy for headless checks."""
+def conclude(summary: str, **facts: Any) -> None:
+    """Print what a notebook concluded, plus a machine-readable copy for headless checks.
+
+    The copy travels under :data:`CONCLUSION_MIME`; people see only the sentence.
+    """
     from IPython.display import display
 
     payload = {"summary": summary, **facts}
     display({CONCLUSION_MIME: json.loads(json.dumps(payload, default=str)),
              "text/plain": "Conclusion: " + summary}, raw=True)
-    return payload
