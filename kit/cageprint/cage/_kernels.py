@@ -45,8 +45,9 @@ OPEN = 5  # the last face does not close the rim
 def _connect(k, x, size, deg, nbr, ipr):
     if deg[x] >= size[x] or deg[k] >= size[k]:
         return OVERFULL
-    if ipr and size[x] == 5 and size[k] == 5:
-        return FUSED
+    if size[x] == 5 and size[k] == 5:
+        if ipr == 1:  # no two pentagons may touch
+            return FUSED
     nbr[x, deg[x]] = k
     deg[x] += 1
     nbr[k, deg[k]] = x
@@ -67,11 +68,15 @@ def _add_tri(tri, ptr, a, b, c):
 def place(k, nfaces, size, deg, nbr, bnd, ptr, tri, ipr):
     """Lay face ``k`` (its size already in ``size[k]``) onto the spiral.
 
-    ``ptr`` holds ``[head, tail, n_triangles, offending_face]``.  Returns a
-    status code; on failure the caller restores the state with :func:`unplace`
-    (and its saved rim) and ``ptr[3]`` names the face that broke the rule.
+    ``ptr`` holds ``[head, tail, n_triangles, offending_face, slot, old]``:
+    the rim changes only by moving head and tail and by writing ``k`` into
+    ``bnd[slot]`` (whose old value is kept), so saving ``ptr`` is enough to
+    undo a placement.  Returns a status code; on failure the caller restores
+    the state with :func:`unplace` and the saved ``ptr``, and ``ptr[3]``
+    names the face that broke the rule.
     """
     ptr[3] = k
+    ptr[4] = -1
     if k == 0:
         deg[0] = 0
         bnd[0] = 0
@@ -149,6 +154,8 @@ def place(k, nfaces, size, deg, nbr, bnd, ptr, tri, ipr):
         return OPEN
     if deg[k] == size[k]:
         return SURROUNDED
+    ptr[4] = t
+    ptr[5] = bnd[t]
     bnd[t] = k
     ptr[1] = t + 1
     return OK
@@ -175,7 +182,7 @@ def windup(size, ipr):
     deg = np.zeros(nf, np.int64)
     nbr = np.zeros((nf, 6), np.int64)
     bnd = np.zeros(nf + 1, np.int64)
-    ptr = np.zeros(4, np.int64)
+    ptr = np.zeros(6, np.int64)
     tri = np.zeros((n, 3), np.int64)
     for k in range(nf):
         c = place(k, nf, size, deg, nbr, bnd, ptr, tri, ipr)
@@ -188,6 +195,12 @@ def windup(size, ipr):
 def next_matrix(tri, nf):
     """``nxt[a, b]``: the neighbour of face ``a`` that follows ``b`` (one sense)."""
     nxt = -np.ones((nf, nf), np.int64)
+    fill_next(tri, nxt)
+    return nxt
+
+
+@njit(cache=True)
+def fill_next(tri, nxt):
     for i in range(tri.shape[0]):
         a = tri[i, 0]
         b = tri[i, 1]
@@ -195,7 +208,6 @@ def next_matrix(tri, nf):
         nxt[a, b] = c
         nxt[b, c] = a
         nxt[c, a] = b
-    return nxt
 
 
 @njit(cache=True)
@@ -314,6 +326,30 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
     return True
 
 
+#: faces allowed beyond the layer estimate in :func:`cap_table`
+CAP_SLACK = 3
+
+
+def cap_table(nf, slack):
+    """Most faces a rim of ``m`` faces can still enclose with ``q < 6`` pentagons.
+
+    Gauss-Bonnet on the uncovered disc: going one layer inwards shortens the
+    rim by ``6 - q``, so the faces left are at most the sum of the shrinking
+    layer lengths (pentagons at the centre give the largest cap), plus a
+    small ``slack`` for the centre.  ``cap[q, m]``, for q in 0..5.
+    """
+    cap = np.zeros((6, nf + 2), np.int64)
+    for q in range(6):
+        for m in range(nf + 2):
+            total = 0
+            layer = m - (6 - q)
+            while layer > 0:
+                total += layer
+                layer -= 6 - q
+            cap[q, m] = total + slack
+    return cap
+
+
 def new_search_state(n):
     """Arrays holding a resumable depth-first search over spirals of C``n``."""
     nf = n // 2 + 2
@@ -322,19 +358,30 @@ def new_search_state(n):
         "deg": np.zeros(nf, np.int64),
         "nbr": np.zeros((nf, 6), np.int64),
         "bnd": np.zeros(nf + 1, np.int64),
-        "ptr": np.zeros(4, np.int64),
+        "ptr": np.zeros(6, np.int64),
         "tri": np.zeros((n, 3), np.int64),
-        "bsave": np.zeros((nf, nf + 1), np.int64),
-        "psave": np.zeros((nf, 4), np.int64),
+        "nxt": -np.ones((nf, nf), np.int64),
+        "psave": np.zeros((nf + 1, 6), np.int64),
         "tried": np.zeros(nf + 1, np.int64),
-        # [k, pentagons placed, started, nodes visited]
-        "ctl": np.zeros(4, np.int64),
+        # [k, pentagons placed, started, nodes visited, complete windups]
+        "ctl": np.zeros(5, np.int64),
+        "cap": cap_table(nf, CAP_SLACK),
     }
     return st
 
 
 @njit(cache=True)
-def search(size, deg, nbr, bnd, ptr, tri, bsave, psave, tried, ctl, ipr, out, max_out):
+def _undo(k, deg, nbr, bnd, ptr, psave):
+    unplace(k, deg, nbr)
+    if ptr[4] >= 0:  # face k went onto the rim: put back what it overwrote
+        bnd[ptr[4]] = ptr[5]
+    for i in range(6):
+        ptr[i] = psave[k, i]
+
+
+@njit(cache=True)
+def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, ipr, fused_rule, out,
+           max_out):
     """Resumable depth-first search for canonical spirals in lexicographic order.
 
     Face 0 is always a pentagon (a canonical spiral starts at one).  At each
@@ -352,17 +399,19 @@ def search(size, deg, nbr, bnd, ptr, tri, bsave, psave, tried, ctl, ipr, out, ma
     if ctl[2] == 0:
         ctl[2] = 1
         size[0] = 5
-        place(0, nf, size, deg, nbr, bnd, ptr, tri, ipr)
+        place(0, nf, size, deg, nbr, bnd, ptr, tri, 0)
         ctl[0] = 1
         ctl[1] = 1
         tried[1] = 0
     k = ctl[0]
     npent = ctl[1]
     nodes = ctl[3]
+    windups = ctl[4]
     while k >= 1:
         if k == nf:
             # a complete spiral: keep it if no pentagon start gives a smaller one
-            nxt = next_matrix(tri, nf)
+            windups += 1
+            fill_next(tri, nxt)
             if _is_canonical(nxt, size, deg, nbr, uout, placed, cnt, ubnd):
                 j = 0
                 for i in range(nf):
@@ -371,11 +420,7 @@ def search(size, deg, nbr, bnd, ptr, tri, bsave, psave, tried, ctl, ipr, out, ma
                         j += 1
                 nout += 1
             k -= 1
-            unplace(k, deg, nbr)
-            for i in range(nf + 1):
-                bnd[i] = bsave[k, i]
-            for i in range(4):
-                ptr[i] = psave[k, i]
+            _undo(k, deg, nbr, bnd, ptr, psave)
             if size[k] == 5:
                 npent -= 1
             if nout >= max_out:
@@ -385,38 +430,42 @@ def search(size, deg, nbr, bnd, ptr, tri, bsave, psave, tried, ctl, ipr, out, ma
         if tk == 2:
             k -= 1
             if k >= 1:
-                unplace(k, deg, nbr)
-                for i in range(nf + 1):
-                    bnd[i] = bsave[k, i]
-                for i in range(4):
-                    ptr[i] = psave[k, i]
+                _undo(k, deg, nbr, bnd, ptr, psave)
                 if size[k] == 5:
                     npent -= 1
             continue
         tried[k] = tk + 1
         s = 5 if tk == 0 else 6
         np_after = npent + (1 if s == 5 else 0)
-        if np_after > 12 or 12 - np_after > nf - 1 - k:
+        q = 12 - np_after
+        left = nf - 1 - k
+        if q < 0 or q > left:
             continue
         nodes += 1
-        for i in range(nf + 1):
-            bsave[k, i] = bnd[i]
-        for i in range(4):
+        for i in range(6):
             psave[k, i] = ptr[i]
         size[k] = s
-        c = place(k, nf, size, deg, nbr, bnd, ptr, tri, ipr)
+        # Rule from canonicity: a spiral of this cage starting at two touching
+        # pentagons would read 5 5 ...; so once face 2 is a hexagon, no two
+        # pentagons may touch (see FUSED_START_RULE in isomers.py)
+        rule = 1 if (ipr or (fused_rule and size[1] == 6)) else 0
+        c = place(k, nf, size, deg, nbr, bnd, ptr, tri, rule)
         if c != OK:
-            unplace(k, deg, nbr)
-            for i in range(nf + 1):
-                bnd[i] = bsave[k, i]
-            for i in range(4):
-                ptr[i] = psave[k, i]
+            _undo(k, deg, nbr, bnd, ptr, psave)
+            continue
+        # a rim of m faces with q < 6 pentagons left can only enclose so many
+        # faces; and a face shortens the rim by at most 2 (a pentagon by 1)
+        # while the last face needs a rim of its own size
+        m = ptr[1] - ptr[0]
+        if k < nf - 1 and ((q < 6 and left > cap[q, m]) or m + q - 2 * (left - 1) > 6):
+            _undo(k, deg, nbr, bnd, ptr, psave)
             continue
         npent = np_after
         k += 1
-        if k <= nf:
+        if k < nf:
             tried[k] = 0
     ctl[0] = k
     ctl[1] = npent
     ctl[3] = nodes
+    ctl[4] = windups
     return nout, k < 1

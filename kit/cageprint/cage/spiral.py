@@ -144,7 +144,7 @@ def wind_up(n: int, spiral) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     n = check_n(n)
     spiral = check_spiral(n, spiral)
     size = _sizes(n, spiral)
-    status, face, other, deg, nbr, tri = K.windup(size, False)
+    status, face, other, deg, nbr, tri = K.windup(size, 0)
     if status != K.OK:
         words = " ".join(str(p) for p in spiral)
         reason = _REASONS[int(status)].format(

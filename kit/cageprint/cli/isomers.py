@@ -1,0 +1,89 @@
+"""``cageprint isomers N``: list the isomers of C_N in canonical-spiral order.
+
+The rows are built from :data:`COLUMNS`, a list of ``(header, function)``
+pairs taking a :class:`~cageprint.cage.Cage` and returning a value; more
+columns (e.g. fingerprints) are added by appending to that list.
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import sys
+from collections.abc import Callable
+
+from ..cage import Cage, check_n, iter_isomers
+
+
+def _spiral(cage: Cage) -> str:
+    return " ".join(str(p) for p in cage.spiral)
+
+
+#: (header, value function) of every column, in order; the first three are fixed
+COLUMNS: list[tuple[str, Callable[[Cage], object]]] = [
+    ("formula", lambda c: c.formula),
+    ("isomer", lambda c: c.isomer),
+    ("spiral", _spiral),
+    ("fused_pentagon_pairs", lambda c: c.fused_pentagon_pairs),
+]
+
+
+def rows(n: int, ipr: bool = False, progress: bool = False):
+    """Yield the header, then one list of values per isomer.
+
+    Examples
+    --------
+    >>> for row in rows(28):
+    ...     print(row)
+    ['formula', 'isomer', 'spiral', 'fused_pentagon_pairs']
+    ['C28', 1, '1 2 3 4 5 7 10 12 13 14 15 16', 20]
+    ['C28', 2, '1 2 3 5 7 9 10 11 12 13 14 15', 18]
+    """
+    n = check_n(n, name="N")  # fail before the header is printed
+    columns = list(COLUMNS)
+
+    def _rows():
+        yield [name for name, _ in columns]
+        for cage in iter_isomers(n, ipr=ipr, progress=progress):
+            yield [fn(cage) for _, fn in columns]
+
+    return _rows()
+
+
+def add_parser(subparsers) -> argparse.ArgumentParser:
+    p = subparsers.add_parser(
+        "isomers",
+        help="list the isomers of C_N (canonical spiral order, literature numbers)",
+        description="List every isomer of the fullerene C_N, or only those obeying the "
+        "isolated pentagon rule, numbered by canonical face spiral.",
+    )
+    p.add_argument("n", type=int, metavar="N", help="number of carbon atoms (even, >= 20, not 22)")
+    p.add_argument("--ipr", action="store_true", help="only isolated-pentagon (IPR) isomers")
+    p.add_argument("--csv", action="store_true", help="comma-separated values with a header row")
+    p.add_argument(
+        "--progress", action="store_true", help="show a progress bar on standard error"
+    )
+    return p
+
+
+def run(args: argparse.Namespace) -> int:
+    out = sys.stdout
+    it = rows(args.n, ipr=args.ipr, progress=args.progress)
+    header = next(it)
+    if args.csv:
+        w = csv.writer(out, lineterminator="\n")
+        w.writerow(header)
+        for row in it:
+            w.writerow(row)
+        return 0
+    widths = [max(len(h), 8) for h in header]
+    widths[2] = max(widths[2], 40)
+    fmt = "  ".join(f"{{:<{w}}}" for w in widths[:-1]) + "  {}"
+    out.write(fmt.format(*header).rstrip() + "\n")
+    count = 0
+    for row in it:
+        out.write(fmt.format(*map(str, row)).rstrip() + "\n")
+        count += 1
+    kind = "IPR isomers" if args.ipr else "isomers"
+    out.write(f"{count} {kind} of C{args.n}\n")
+    return 0
