@@ -567,6 +567,7 @@ def pick_peaks(
         find_peaks(ys, prominence=prom if prom > 0 else None)[0].size - idx.size
     ) if floor else 0
     rejected: list[dict] = []
+    low_contrast = 0
     n = x.size
     if idx.size == 0:
         diag["candidates"] = 0
@@ -602,6 +603,11 @@ def pick_peaks(
             continue
         k = int(np.clip(round(wpts[gi] / 2.0), 1, FIT_MAX_HALF_POINTS))
         gi += 1
+        if snr is not None and sigma > 0:
+            back = max(_valley_level(yc, int(outer[j])), _valley_level(yc, int(outer[j + 1])))
+            if (ys[i] - max(back, 0.0)) / sigma < HEIGHT_PREFILTER * snr:
+                low_contrast += 1  # far below the contrast test: not worth a fit
+                continue
         centre, height, ok = _fit_centre(x, yc, int(i), k, "parabola" if fit == "lorentzian"
                                          else fit)
         fwhm = wid[j]
@@ -644,6 +650,7 @@ def pick_peaks(
         areas = _region_integrals(x, yc, lo, hi)
     diag["candidates"] = int(idx.size)
     diag["rejected"] = rejected
+    diag["below_contrast_prefilter"] = low_contrast
     diag["area_rule"] = f"integral over +-{AREA_FWHM} FWHM, cut at midpoints to neighbours"
     res = _result(positions, heights, widths, areas, snrs, s, diag)
     if min_separation is not None and len(res) > 1:

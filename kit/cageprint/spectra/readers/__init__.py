@@ -16,7 +16,7 @@ from typing import Any
 
 from ...errors import SpectrumFormatError
 from ..model import Spectrum
-from ._common import BYTES_SOURCE, MAX_POINTS, check_binary
+from ._common import BYTES_SOURCE, MAX_POINTS, check_binary, is_blank
 from .delimited import parse_delimited, parse_peaklist, sniff_delimited
 from .jcamp import jcamp_blocks, parse_jcamp, sniff_jcamp
 from .mzml import mzml_blocks, parse_mzml, sniff_mzml
@@ -127,7 +127,7 @@ def _choose_format(data: bytes, source: str, ext: str | None, fmt: str | None) -
                 f"unknown format={fmt!r}; known formats: {', '.join(sorted(READERS))}", source
             )
         return key
-    if not data.strip():
+    if is_blank(data):
         raise SpectrumFormatError("empty input: no data at all", source)
     head = data[:SNIFF_BYTES]
     best, best_score = None, 0.0

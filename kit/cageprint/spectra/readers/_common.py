@@ -24,6 +24,11 @@ def sha256(data: bytes) -> str:
     return hashlib.sha256(data).hexdigest()
 
 
+def is_blank(data: bytes) -> bool:
+    """True for empty or whitespace-only data (looks at the head first: cheap for big files)."""
+    return not data or (not data[:4096].strip() and not data.strip())
+
+
 def check_binary(data: bytes, source: str) -> None:
     """Refuse data that is clearly not text (NUL bytes or many control bytes)."""
     head = data[:65536]
@@ -44,7 +49,7 @@ def check_binary(data: bytes, source: str) -> None:
 
 def decode_text(data: bytes, source: str, encoding: str | None = None) -> str:
     """Decode bytes as text: a BOM, then UTF-8, unless ``encoding`` is given."""
-    if not data or not data.strip():
+    if is_blank(data):
         raise SpectrumFormatError("empty input: no data at all", source)
     if data.startswith((b"\xff\xfe", b"\xfe\xff")) and encoding is None:
         try:

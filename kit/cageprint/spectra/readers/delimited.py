@@ -235,7 +235,9 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
 
     start_line, start_off = first
     rest = text[start_off:].rstrip()
-    if _SKIP_LINE.search(rest):
+    # comment characters anywhere (a fast scan) -> filter lines in Python; blank lines alone
+    # are skipped by the parser, and line numbers are then worked out only for a message
+    if any(c in rest for c in ("#", "%", "!", "//")) and _SKIP_LINE.search(rest):
         kept = [(k, ln) for k, ln in enumerate(rest.split("\n"), start_line) if not _is_skip(ln)]
         line_numbers = np.fromiter((k for k, _ in kept), dtype=np.int64, count=len(kept))
         body = "\n".join(ln for _, ln in kept)
@@ -245,9 +247,17 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     else:
         kept = None
         body = rest
+        cache: dict = {}
 
         def line_of(i, _s=start_line):
-            return _s + i
+            if "plain" not in cache:
+                cache["plain"] = body.count("\n") + 1 == nrows[0]
+            if cache["plain"]:
+                return _s + i
+            if "ln" not in cache:
+                cache["ln"] = [k for k, ln in enumerate(body.split("\n"), _s) if ln.strip()]
+            return cache["ln"][i] if 0 <= i < len(cache["ln"]) else None
+    nrows = [0]
 
     def locate(reason: str | None):
         """Find the first bad line (slow pass); with ``reason`` None, return if all is well."""
@@ -255,6 +265,8 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
             (k, ln) for k, ln in enumerate(body.split("\n"), start_line)
         )
         for k, ln in seq:
+            if not ln.strip():
+                continue
             parts = _split(ln, delim)
             if len(parts) != ncols:
                 raise SpectrumFormatError(
@@ -279,7 +291,7 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
 
     sep = r"\s+" if delim is None else delim
     common = dict(sep=sep, decimal=dec, header=None, engine="c", skipinitialspace=True,
-                  skip_blank_lines=False, index_col=False)
+                  skip_blank_lines=True, index_col=False)
     try:
         frame = pd.read_csv(io.StringIO(body), dtype=np.float64, **common)
     except (ValueError, pd.errors.ParserError):
@@ -295,6 +307,7 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
         frame = frame.iloc[:, :ncols]  # a trailing delimiter on every line
     if frame.shape[1] != ncols and frame.shape[1] != len(use):
         locate(f"{frame.shape[1]} columns where {ncols} were expected")
+    nrows[0] = len(frame)
     cols = {i: frame[i].to_numpy(dtype=float) for i in use}
     if frame.isna().to_numpy().any():
         locate(None)
