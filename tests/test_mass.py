@@ -362,3 +362,30 @@ def test_cli_envelope(capsys):
     assert "charge 0: a neutral species has no m/z" in capsys.readouterr().err
     assert main(["envelope", "C60Xy"]) == 2
     assert "unknown element 'Xy'" in capsys.readouterr().err
+
+
+def test_cli_mass_reads_mzml(tmp_path, capsys):
+    # invented truth: the same mixture written as a profile mzML (psims, test dependency)
+    import warnings
+
+    writer = pytest.importorskip("psims.mzml.writer")
+    s = synthetic_mass_spectrum(MIXTURE, seed=21, offset=0.3)
+    path = tmp_path / "run.mzML"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        with writer.MzMLWriter(open(path, "wb"), close=True) as out:
+            out.controlled_vocabularies()
+            out.file_description(["MS1 spectrum"])
+            out.software_list([{"id": "gen", "version": "1",
+                                "params": ["custom unreleased software tool"]}])
+            out.instrument_configuration_list([{"id": "IC1", "component_list": []}])
+            out.data_processing_list([{"id": "DP1", "processing_methods": [
+                {"order": 1, "software_reference": "gen", "params": ["conversion to mzML"]}]}])
+            with out.run(id="r1", instrument_configuration="IC1"):
+                with out.spectrum_list(count=1):
+                    out.write_spectrum(s.x, s.y, id="scan=1", centroided=False,
+                                       polarity="positive scan",
+                                       params=["MS1 spectrum", {"ms level": 1}])
+    assert main(["mass", str(path), "--csv"]) == 0
+    rows = [ln.split(",") for ln in capsys.readouterr().out.strip().splitlines()[1:]]
+    assert sorted((r[0], int(r[1])) for r in rows) == sorted((f, z) for f, z, _ in MIXTURE)
