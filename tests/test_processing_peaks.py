@@ -322,3 +322,56 @@ def test_merge_peaks_arguments():
     with pytest.raises(SpectrumError, match=r"heights='mean' must be 'max' or 'sum'"):
         merge_peaks(p, 1.0, heights="mean")
     assert len(merge_peaks(p, 0.5)) == 2 and len(merge_peaks(p, 1.5)) == 1
+
+
+# ----------------------------------------------------------------------------- reference checks
+
+
+def test_region_integrals_match_a_slow_reference():
+    # slow, obvious reference: dense resampling of the piecewise-linear curve + trapezoid rule
+    from cageprint.spectra.processing import _region_integrals
+
+    rng = np.random.default_rng(9)
+    x = np.sort(rng.uniform(0, 10, 300))
+    y = rng.normal(0, 1, x.size)
+    lo = rng.uniform(0, 9, 20)
+    hi = lo + rng.uniform(0.01, 1.0, 20)
+    fast = _region_integrals(x, y, lo, hi)
+    for a, b, f in zip(lo, hi, fast, strict=True):
+        grid = np.union1d(np.linspace(a, b, 20001), x[(x > a) & (x < b)])
+        slow = np.trapezoid(np.interp(grid, x, y), grid)
+        assert f == pytest.approx(slow, abs=1e-9)
+
+
+def test_noise_matches_sample_std_on_pure_noise():
+    # on pure white noise the estimate must agree with the sample standard deviation
+    # (common practice, no source): within 5 % on 50000 points
+    y = np.random.default_rng(21).normal(3.0, 0.7, 50_000)
+    s = Spectrum(np.arange(y.size, dtype=float), y, technique="raman")
+    assert estimate_noise(s)[0] == pytest.approx(np.std(y), rel=0.05)
+
+
+def test_gaussian_mass_lines_with_smoothing():
+    # Gaussian profile lines (mass spectrometry; common practice), seeded noise, smooth=True
+    x = np.linspace(700.0, 760.0, 12001)
+    centres = np.array([710.0, 720.0, 721.003, 730.0, 745.5])
+    snr = np.array([10.0, 200.0, 120.0, 8.0, 30.0])
+    sd = 0.05
+    y = sum(h * 0.02 * np.exp(-0.5 * ((x - c) / sd) ** 2) for c, h in zip(centres, snr,
+                                                                            strict=True))
+    y = y + np.random.default_rng(4).normal(0, 0.02, x.size)
+    p = pick_peaks(Spectrum(x, y, technique="mass"), smooth=True, fit="gaussian")
+    assert len(p) == len(centres)
+    assert np.allclose(p.positions, centres, atol=0.01)
+    assert np.allclose(p.snr / snr, 1, atol=0.3)
+    assert p.diagnostics["smooth"]["window"] == 9
+
+
+def test_too_many_candidates_is_refused():
+    from cageprint.spectra.processing import MAX_CANDIDATES
+
+    y = np.random.default_rng(0).normal(0, 1, 5 * MAX_CANDIDATES)
+    s = Spectrum(np.arange(y.size, dtype=float), y, technique="ir")
+    with pytest.raises(SpectrumError, match=rf"candidate maxima pass prominence=0 .*\(more than "
+                       rf"MAX_CANDIDATES={MAX_CANDIDATES}\); raise snr="):
+        pick_peaks(s, snr=None, baseline=None)

@@ -67,6 +67,8 @@ BASELINE_METHODS = ("arpls", "asls", "airpls", "iarpls", "drpls", "modpoly", "im
 FIT_MAX_HALF_POINTS = 50
 #: candidates whose apex is below this fraction of the S/N (or min_height) level are not fitted
 HEIGHT_PREFILTER = 0.7
+#: pick_peaks refuses to fit more candidate maxima than this (thresholds far too low)
+MAX_CANDIDATES = 20_000
 #: valley levels for the local-contrast test are averaged over +-this many points
 VALLEY_HALF_POINTS = 2
 #: a picked peak's area is integrated over +-AREA_FWHM x FWHM (cut at neighbouring peaks)
@@ -566,6 +568,12 @@ def pick_peaks(
     diag["below_height_prefilter"] = int(
         find_peaks(ys, prominence=prom if prom > 0 else None)[0].size - idx.size
     ) if floor else 0
+    if idx.size > MAX_CANDIDATES:
+        raise SpectrumError(
+            f"{idx.size} candidate maxima pass prominence={prom:.4g} and the height pre-filter "
+            f"(more than MAX_CANDIDATES={MAX_CANDIDATES}); raise snr=, prominence= or "
+            "min_height=, or subtract the baseline"
+        )
     rejected: list[dict] = []
     low_contrast = 0
     n = x.size

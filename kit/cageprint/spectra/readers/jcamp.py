@@ -46,7 +46,9 @@ _SQZ = {c: d for d, c in enumerate("@ABCDEFGHI")} | {c: -d for d, c in
 _DIF = {c: d for d, c in enumerate("%JKLMNOPQR")} | {c: -d for d, c in
                                                      enumerate("%jklmnopqr") if d}
 _DUP = {c: d for d, c in enumerate("STUVWXYZs", start=1)}
-_COMPRESSED_ONLY = set("@ABCDFGHIabcdfghi%JKLMNOPQRjklmnopqrSTUVWXYZs")  # E/e may be exponents
+# ASDF characters that cannot be part of an AFFN number (E/e may be exponents): one of them
+# anywhere in a table makes the whole table compressed, where E/e are then SQZ digits
+_COMPRESSED_RE = re.compile(r"[@A-DF-Ia-df-i%J-Rj-rS-Zs]")
 _TOKEN_ASDF = re.compile(
     r"([@A-Ia-i%J-Rj-rS-Zs])(\d*(?:\.\d*)?)|([+-]?(?:\d+\.?\d*|\.\d+))|(\?)|([\s,;]+)"
 )
@@ -269,7 +271,7 @@ def _decode_xydata(blk: _Block, source: str, max_points: int):
         step = (lastx - firstx) / (npoints - 1)
     elif deltax is not None:
         step = deltax
-    compressed = any(c in _COMPRESSED_ONLY for _, t in lines for c in t)
+    compressed = any(_COMPRESSED_RE.search(t) for _, t in lines)
     ys: list = []
     xchecks: list[tuple[int, float, int]] = []
     prev_dif = False
