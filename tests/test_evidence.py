@@ -119,7 +119,8 @@ def test_round_trip_and_frame():
 
 def test_mass_fixes_n_and_cage_charge():
     # common practice, no source: the molecular ion fixes the cage size; an endohedral
-    # cluster such as Sc3N transfers six electrons to the C80 cage (from memory)
+    # cluster such as Sc3N transfers six electrons to the C80 cage, formal charge -6
+    # (from memory)
     c78 = cand(1, n=78, sizes=(6,) * 13, pg="D3")
     sp = SimpleNamespace
     obs = sp(species=(sp(formula="C78", cage_n=78, cage_charge=0, kind="cage",
@@ -132,10 +133,10 @@ def test_mass_fixes_n_and_cage_charge():
     minor = sp(species=(sp(formula="C78", cage_n=78, cage_charge=0, kind="cage",
                            relative_abundance=0.05),))
     assert mass_verdict(c78, minor).verdict == "possible"
-    endo = sp(species=(sp(formula="Sc3N@C80", cage_n=80, cage_charge=6, kind="endohedral",
+    endo = sp(species=(sp(formula="Sc3N@C80", cage_n=80, cage_charge=-6, kind="endohedral",
                           relative_abundance=1.0),))
     empty80 = Candidate("C80", 80, 7, "Ih", (60, 20))
-    charged80 = Candidate("Sc3N@C80", 80, 7, "Ih", (60, 20), cage_charge=6)
+    charged80 = Candidate("Sc3N@C80", 80, 7, "Ih", (60, 20), cage_charge=-6)
     assert mass_verdict(empty80, endo).verdict == "unlikely"
     assert mass_verdict(charged80, endo).verdict == "consistent"
     assert mass_verdict(c78, sp(species=())).verdict == "no data"

@@ -282,3 +282,40 @@ def test_solvent_lines_are_excluded_by_name():
     assert len(obs.excluded) == 4
     with pytest.raises(SpectrumError, match="unknown solvent 'slime'"):
         observe_nmr(s, solvent="slime")
+
+
+def test_mixture_of_c2v_and_d3_ranks_the_major_isomer_first():
+    # Diederich et al., Science 1991: their C78 was a mixture of the C2v and D3 isomers and
+    # the spectrum showed both sets of lines; here 3:1 with invented positions and noise
+    p1, i1 = peak_list(C78_C2V, 51, lo=131, hi=149)
+    p2, i2 = peak_list(C78_D3, 52, lo=131.5, hi=151.5)
+    pos = p1 + p2
+    ints = [0.75 * a for a in i1] + [0.25 * a for a in i2]
+    r = rank_nmr(78, pos, ints)
+    top = _first(r)
+    assert (top.candidate.point_group, top.candidate.pattern) == ("C2v", "18x4+3x2")
+    v = top.verdicts["nmr"]
+    assert v.details["second_component"]["pattern"] == "13x6"
+    assert any("13 further lines" in s and "a mixture is assumed" in s for s in v.reasons)
+    d3 = next(x for x in r.rows if x.candidate.point_group == "D3")
+    assert d3.verdicts["nmr"].verdict in ("possible", "unlikely")
+    assert d3.score < top.score - 10
+    assert all(x.verdicts["nmr"].verdict == "ruled out" for x in r.rows
+               if x.candidate.point_group == "D3h")
+
+
+def test_without_partners_many_extra_lines_are_unlikely_or_ruled_out():
+    # common practice, no source: 13 unexplained lines carrying a quarter of the intensity
+    # are hardly all impurities; above the minor fraction they rule the candidate out
+    p1, i1 = peak_list(C78_C2V, 53)
+    p2, i2 = peak_list(C78_D3, 54)
+    obs = NmrObservation(tuple(p1 + p2), tuple([0.75 * a for a in i1] + [0.25 * a for a in i2]))
+    v = compare_nmr(tuple(C78_C2V), obs)
+    assert v.verdict == "unlikely"
+    assert 0.2 < v.details["impurity_fraction"] < 0.3
+    v = compare_nmr(tuple(C78_C2V), obs, minor_fraction=0.2)
+    assert v.verdict == "ruled out"
+    assert "exceed the allowance of 3 lines or 20 %" in v.reasons[1]
+    v = compare_nmr(tuple(C78_C2V), obs, partners=[(tuple(C78_D3), "the D3 isomer")])
+    assert v.verdict in ("consistent", "possible")
+    assert v.details["second_component"]["label"] == "the D3 isomer"

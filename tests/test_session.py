@@ -196,3 +196,12 @@ def test_formula_from_mass_species(monkeypatch):
     s = Session()
     s.set_spectrum("mass", Spectrum([936.0], [1.0], technique="mass", kind="peaks"))
     assert s.formula == "C78" and s.n == 78
+
+
+def test_endohedral_cage_charge_from_formula():
+    # from memory: the Sc3N cluster gives six electrons to the C80 cage (formal charge -6),
+    # the convention of cageprint.techniques.mass.cage_charge
+    s = Session("Sc3N@C80")
+    assert s.cage_charge == -6
+    assert Session("C80").cage_charge == 0
+    assert Session("Sc3N@C80", cage_charge=-4).cage_charge == -4

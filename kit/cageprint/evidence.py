@@ -179,7 +179,8 @@ class Candidate:
     transitions_beta : tuple of float
         Energies (units of ``|beta|``) of dipole-allowed transitions, lowest first.
     cage_charge : int
-        Electrons taken from an inner cluster (0 for an empty cage).
+        Formal charge of the cage (-6 for Sc3N@C80; 0 for an empty cage), as
+        in :func:`cageprint.techniques.mass.cage_charge`.
     spiral : tuple of int, optional
     label : str, optional
         Display label; defaults to ``"C78 isomer 3 (C2v)"`` form.

@@ -154,8 +154,13 @@ def _param_names(fn: Callable[..., Any]) -> set[str]:
             return set()
         fn = observe_mass
     params = inspect.signature(fn).parameters.values()
-    return {p.name for p in params if p.kind == p.KEYWORD_ONLY
-            or (p.kind == p.POSITIONAL_OR_KEYWORD and p.default is not p.empty)}
+    return {p.name for p in params if (p.kind == p.KEYWORD_ONLY
+            or (p.kind == p.POSITIONAL_OR_KEYWORD and p.default is not p.empty))
+            and p.name not in _INTERNAL}
+
+
+#: comparison arguments the session fills itself (not user thresholds)
+_INTERNAL = frozenset({"partners"})
 
 
 def _check_technique(technique: str) -> str:
@@ -185,8 +190,9 @@ class Session:
     ----------
     formula : str, optional
         Cage formula (``"C78"``, ``"Sc3N@C80"``).
-    cage_charge : int
-        Electrons the cage takes from an inner cluster (0 for an empty cage).
+    cage_charge : int, optional
+        Formal charge of the cage (-6 for Sc3N@C80: six electrons from the
+        cluster); default from the formula (0 for an empty cage).
     weights : mapping, optional
         Technique weights (see :data:`cageprint.evidence.DEFAULT_WEIGHTS`).
 
@@ -201,11 +207,11 @@ class Session:
     (called on the class, it restores a saved session).
     """
 
-    def __init__(self, formula: str | None = None, *, cage_charge: int = 0,
+    def __init__(self, formula: str | None = None, *, cage_charge: int | None = None,
                  weights: Mapping[str, float] | None = None) -> None:
         self.formula: str | None = None
         self.n: int | None = None
-        self.cage_charge = int(cage_charge)
+        self.cage_charge = 0
         self.ipr: bool | None = None
         self.candidates: tuple[Candidate, ...] = ()
         self.spectra: dict[str, Spectrum] = {}
@@ -225,12 +231,22 @@ class Session:
     # ------------------------------------------------------------ formula, candidates
 
     def set_formula(self, formula: str, *, cage_charge: int | None = None) -> None:
-        """Set the cage formula; drops the candidates (call :meth:`set_candidates`)."""
-        n, _inner = parse_cage_formula(formula)
-        if cage_charge is not None:
-            self.cage_charge = int(cage_charge)
-        if formula == self.formula and n == self.n:
+        """Set the cage formula; drops the candidates (call :meth:`set_candidates`).
+
+        ``cage_charge`` is the formal charge of the cage; by default it comes
+        from the formula (:func:`cageprint.techniques.mass.cage_charge`: -6 for
+        Sc3N@C80, 0 for an empty cage).
+        """
+        n, inner = parse_cage_formula(formula)
+        if cage_charge is None:
+            cage_charge = 0
+            if inner:
+                from .techniques.mass import cage_charge as _formal_charge
+
+                cage_charge = _formal_charge(formula.strip())
+        if formula == self.formula and n == self.n and int(cage_charge) == self.cage_charge:
             return
+        self.cage_charge = int(cage_charge)
         self.formula = formula.strip()
         self.n = n
         self.candidates = ()
@@ -329,7 +345,7 @@ class Session:
                     parse_cage_formula(formula)
                 except FormulaError:
                     formula = f"C{cn}"
-                self.set_formula(formula, cage_charge=getattr(sp, "cage_charge", None) or 0)
+                self.set_formula(formula, cage_charge=getattr(sp, "cage_charge", None))
                 return
 
     # ------------------------------------------------------------ thresholds, weights
@@ -421,11 +437,35 @@ class Session:
         key = candidate.signature(technique)
         cache = self._cmp[technique]
         if key not in cache:
-            opts = {k: v for k, v in self._thresholds[technique].items()
-                    if k in _param_names(_COMPARE[technique])}
+            opts = self._compare_options(technique)
             self.stats[f"compare:{technique}"] += 1
             cache[key] = _COMPARE[technique](candidate, obs, **opts)
         return cache[key]
+
+    def _compare_options(self, technique: str) -> dict[str, Any]:
+        names = _param_names(_COMPARE[technique])
+        opts = {k: v for k, v in self._thresholds[technique].items() if k in names}
+        if technique == "nmr" and "partners" not in opts:
+            opts["partners"] = self._nmr_partners()
+        return opts
+
+    def _nmr_partners(self) -> list[tuple[tuple[int, ...], str]]:
+        """Distinct 13C patterns of the candidates, labelled, for the mixture search."""
+        groups: dict[tuple[int, ...], list[Candidate]] = {}
+        for c in self.candidates:
+            if c.nmr_sizes:
+                groups.setdefault(c.nmr_sizes, []).append(c)
+        out = []
+        for sizes, cs in groups.items():
+            if len(cs) == 1:
+                label = cs[0].label
+            else:
+                shown = ", ".join(str(c.isomer) for c in cs[:6])
+                more = f" and {len(cs) - 6} more" if len(cs) > 6 else ""
+                groups_pg = "/".join(sorted({c.point_group for c in cs}))
+                label = f"{cs[0].formula} isomers {shown}{more} ({groups_pg})"
+            out.append((sizes, label))
+        return out
 
     def verdicts(self, technique: str) -> list[TechniqueVerdict]:
         """Verdicts of one technique for every candidate, in candidate order."""
@@ -442,9 +482,7 @@ class Session:
             v = cache.get(key)
             if v is None:
                 if opts is None:
-                    names = _param_names(compare)
-                    opts = {k: val for k, val in self._thresholds[technique].items()
-                            if k in names}
+                    opts = self._compare_options(technique)
                 self.stats[f"compare:{technique}"] += 1
                 v = cache[key] = compare(c, obs, **opts)
             out.append(v)

@@ -23,8 +23,9 @@ def add_parser(sub) -> argparse.ArgumentParser:
     )
     p.add_argument("formula", help="cage formula, e.g. C78 or Sc3N@C80 (a bare 78 also works)")
     p.add_argument("--ipr", action="store_true", help="IPR isomers only (default: all isomers)")
-    p.add_argument("--cage-charge", type=int, default=0, metavar="Q",
-                   help="electrons the cage takes from an inner cluster (default 0)")
+    p.add_argument("--cage-charge", type=int, default=None, metavar="Q",
+                   help="formal charge of the cage (default from the formula: 0 for an "
+                   "empty cage, -6 for Sc3N@C80)")
     for tech, flag in _FILES:
         p.add_argument(flag, dest=tech, metavar="FILE", default=None,
                        help=f"{'UV-vis' if tech == 'uvvis' else tech} spectrum or peak list")

@@ -8,8 +8,9 @@ predicted orbits, allowing what real spectra do:
 
 * two or three orbits on one line (accidental coincidence; intensities add),
 * orbits not seen (weak lines lost in noise),
-* a few impurity lines,
-* integrals off by 10-20 %.
+* a few impurity lines (cheap when weak, costly when as strong as the cage's own),
+* integrals off by 10-20 %,
+* a mixture: lines left over may be a second candidate's pattern at its own scale.
 
 Notes
 -----
@@ -21,7 +22,10 @@ either an impurity (cost :data:`NMR_IMPURITY_COST`) or carries one to
 integral to the carbons it carries over :data:`NMR_INTEGRAL_TOL` (halved),
 plus :data:`NMR_MERGE_COST` per extra orbit.  Unused orbits cost
 :data:`NMR_MISSING_COST` each.  The integral scale (carbons per unit area) is
-fitted by alternating with the assignment.  The score is minus the cost.
+fitted by alternating with the assignment.  When more lines are left over than
+:data:`NMR_IMPURITY_ALLOWANCE`, each other candidate pattern (``partners``) is
+fitted to them in turn; a mixture is assumed if that is cheaper than calling
+them impurities.  The score is minus the cost.
 """
 
 from __future__ import annotations
@@ -30,6 +34,7 @@ import itertools
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from fractions import Fraction
 from types import MappingProxyType
 from typing import Any
 
@@ -67,8 +72,25 @@ NMR_INTEGRAL_TOL = 0.15
 NMR_MAX_MERGE = 3
 #: costs (negative log-likelihood units) of the explanations
 NMR_MERGE_COST = 3.0
-NMR_IMPURITY_COST = 4.0
 NMR_MISSING_COST = 4.0
+#: an unexplained line costs NMR_IMPURITY_COST + NMR_IMPURITY_STRENGTH_COST * r**2, r its
+#: carbons (at the fitted scale) over the candidate's largest orbit: weak extra lines are
+#: cheap, lines as strong as the cage's own are not
+NMR_IMPURITY_COST = 1.5
+NMR_IMPURITY_STRENGTH_COST = 6.0
+#: mixtures: unexplained lines may be a second component (another candidate's pattern at
+#: its own scale); assuming one costs NMR_MIXTURE_COST, and being the weaker of the two
+#: costs NMR_MINOR_COMPONENT_COST more
+NMR_MIXTURE_COST = 3.0
+NMR_MINOR_COMPONENT_COST = 6.0
+#: more unexplained intensity than this fraction of the total rules a candidate out
+#: (fewer than NMR_IMPURITY_ALLOWANCE unexplained lines never do)
+NMR_MINOR_FRACTION = 0.35
+#: a second component with more flaws than this (orbits merged or missing, lines left
+#: over) does not make a convincing mixture: the verdict is at best "unlikely"
+NMR_PARTNER_FLAWS = 2
+#: the second-component search tries at most this many distinct partner patterns
+NMR_MAX_PARTNERS = 60
 #: verdict limits: impurity lines, and lost orbits (merged + missing) as a fraction
 NMR_IMPURITY_ALLOWANCE = 3
 NMR_LOST_ALLOWANCE = 0.3
@@ -304,10 +326,10 @@ def _orbit_sizes(prediction: Any) -> tuple[int, ...]:
     return sizes
 
 
-def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_miss):
+def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_miss):
     """Best explanation of the lines by the orbits, for one integral scale.
 
-    Returns (cost, per-line choice vectors or None for impurity, usage).
+    Returns (cost, per-line choice vectors or None for impurity, values, counts).
     """
     values = sorted(set(sizes), reverse=True)
     counts = [sizes.count(v) for v in values]
@@ -327,13 +349,17 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_miss):
     dp = np.full(dims, inf)
     dp[(0,) * len(dims)] = 0.0
     choices = []
+    top = float(values[0])
     for ell in logs:
         if ell is None:
             line_cost = merge
+            imp = c_imp
         else:
             z = (ell + ln_scale - log_contents) / tol
             line_cost = 0.5 * z * z + merge
-        new = dp + c_imp
+            r = math.exp(ell + ln_scale) / top
+            imp = c_imp + c_strong * r * r
+        new = dp + imp
         choice = np.full(dims, -1, dtype=np.int32)
         for o, (src, dst) in enumerate(slices):
             cand = dp[src] + line_cost[o]
@@ -345,7 +371,7 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_miss):
         dp = new
         choices.append(choice)
     grids = np.indices(dims)
-    unused = sum(c - g for c, g in zip(counts, grids, strict=False))
+    unused = sum(c - g for c, g in zip(counts, grids, strict=True))
     total = dp + c_miss * unused
     flat = int(np.argmin(total))
     state = list(np.unravel_index(flat, dims))
@@ -356,8 +382,50 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_miss):
         if o >= 0:
             k = options[o]
             picks[j] = k
-            state = [s - ki for s, ki in zip(state, k, strict=False)]
+            state = [s - ki for s, ki in zip(state, k, strict=True)]
     return cost, picks, values, counts
+
+
+def _fit(sizes, logs, costs):
+    """Best assignment over the integral scale (alternating with the assignment)."""
+    use = logs and logs[0] is not None
+    if not use:
+        return _assign(sizes, logs, 0.0, *costs) + (0.0,)
+    best = None
+    counts = {v: sizes.count(v) for v in set(sizes)}
+    v_mode = max(counts, key=lambda v: (counts[v], v))
+    total = sum(math.exp(ell) for ell in logs)
+    starts = [math.log(sum(sizes) / total), math.log(v_mode) - float(np.median(logs))]
+    for ln_s in starts:
+        for _ in range(5):
+            res = _assign(sizes, logs, ln_s, *costs)
+            if best is None or res[0] < best[0] - 1e-12:
+                best = res + (ln_s,)
+            _cost, picks, values, _c = res
+            diffs = [math.log(sum(ki * v for ki, v in zip(k, values, strict=True))) - ell
+                     for k, ell in zip(picks, logs, strict=True) if k is not None]
+            if not diffs:
+                break
+            new_s = float(np.mean(diffs))
+            if abs(new_s - ln_s) < 1e-9:
+                break
+            ln_s = new_s
+    return best
+
+
+def _partner_list(partners) -> list[tuple[tuple[int, ...], str]]:
+    out: dict[tuple[int, ...], str] = {}
+    for p in partners or ():
+        if isinstance(p, Candidate):
+            sizes, label = p.nmr_sizes, p.label
+        elif isinstance(p, (tuple, list)) and len(p) == 2 and isinstance(p[1], str):
+            sizes, label = _orbit_sizes(p[0]), p[1]
+        else:
+            sizes = _orbit_sizes(p)
+            label = f"pattern {Candidate('C', sum(sizes), 0, '', sizes).pattern}"
+        if sizes and sizes not in out:
+            out[sizes] = label
+    return list(out.items())
 
 
 def compare_nmr(
@@ -368,9 +436,14 @@ def compare_nmr(
     max_merge: int = NMR_MAX_MERGE,
     merge_cost: float = NMR_MERGE_COST,
     impurity_cost: float = NMR_IMPURITY_COST,
+    impurity_strength_cost: float = NMR_IMPURITY_STRENGTH_COST,
     missing_cost: float = NMR_MISSING_COST,
     impurity_allowance: int = NMR_IMPURITY_ALLOWANCE,
     lost_allowance: float = NMR_LOST_ALLOWANCE,
+    minor_fraction: float = NMR_MINOR_FRACTION,
+    partners: Sequence[Any] = (),
+    mixture_cost: float = NMR_MIXTURE_COST,
+    minor_component_cost: float = NMR_MINOR_COMPONENT_COST,
 ) -> TechniqueVerdict:
     """Score a candidate's 13C orbit pattern against the observed lines.
 
@@ -383,13 +456,26 @@ def compare_nmr(
         Relative integral error of one standard deviation (log scale).
     max_merge : int
         Most orbits one observed line may carry.
-    merge_cost, impurity_cost, missing_cost : float
-        Cost of each extra orbit on a line, each unexplained line, each unseen orbit.
+    merge_cost, missing_cost : float
+        Cost of each extra orbit on a line, and of each unseen orbit.
+    impurity_cost, impurity_strength_cost : float
+        An unexplained line costs ``impurity_cost + impurity_strength_cost *
+        r**2``, ``r`` its carbons at the fitted scale over the largest orbit.
     impurity_allowance : int
-        More impurity lines than this rule the candidate out.
+        More unexplained lines than this, carrying more than
+        ``minor_fraction`` of the total intensity, rule the candidate out.
     lost_allowance : float
         More than this fraction of orbits lost (merged or missing; at least 2)
         rules the candidate out.
+    minor_fraction : float
+    partners : sequence, optional
+        Other candidates (Candidate, orbit sizes, or ``(sizes, label)``) whose
+        pattern may explain the unexplained lines as a second component of a
+        mixture.  Tried only when more than ``impurity_allowance`` lines are
+        unexplained.
+    mixture_cost, minor_component_cost : float
+        Cost of assuming a mixture, and extra cost when the candidate carries
+        less intensity than its partner.
 
     Returns
     -------
@@ -407,7 +493,6 @@ def compare_nmr(
     """
     sizes = _orbit_sizes(prediction)
     n_obs = observation.n_lines
-    len(sizes)
     pattern = Candidate("C", sum(sizes), 0, "", sizes).pattern
     if n_obs == 0:
         return TechniqueVerdict("nmr", 0.0, "no data",
@@ -419,45 +504,85 @@ def compare_nmr(
     ints = observation.integrals
     use = ints is not None and all(a > 0 for a in ints)
     logs = [math.log(a) for a in ints] if use else [None] * n_obs
-    n_carbons = sum(sizes)
-    args = (integral_tol, max_merge, merge_cost, impurity_cost, missing_cost)
-    best = None
-    if use:
-        counts = {v: sizes.count(v) for v in set(sizes)}
-        v_mode = max(counts, key=lambda v: (counts[v], v))
-        starts = [math.log(n_carbons / sum(ints)),
-                  math.log(v_mode) - float(np.median(logs))]
-        for ln_s in starts:
-            for _ in range(5):
-                res = _assign(sizes, logs, ln_s, *args)
-                if best is None or res[0] < best[0] - 1e-12:
-                    best = res + (ln_s,)
-                cost, picks, values, _c = res
-                diffs = [math.log(sum(ki * v for ki, v in zip(k, values, strict=False))) - ell
-                         for k, ell in zip(picks, logs, strict=False) if k is not None]
-                if not diffs:
-                    break
-                new_s = float(np.mean(diffs))
-                if abs(new_s - ln_s) < 1e-9:
-                    break
-                ln_s = new_s
-    else:
-        best = _assign(sizes, logs, 0.0, *args) + (0.0,)
-    cost, picks, values, counts, ln_s = best
+    weights = list(ints) if use else [1.0] * n_obs
+    costs = (integral_tol, max_merge, merge_cost, impurity_cost, impurity_strength_cost,
+             missing_cost)
+    cost, picks, values, counts, ln_s = _fit(sizes, logs, costs)
+    mixture = None
+    unexplained = [j for j, k in enumerate(picks) if k is None]
+    if len(unexplained) > impurity_allowance and partners:
+        mixture = _second_component(sizes, logs, picks, values, ln_s, weights, unexplained,
+                                    _partner_list(partners)[:NMR_MAX_PARTNERS], costs,
+                                    cost, mixture_cost, minor_component_cost)
+        if mixture is not None:
+            cost = mixture["cost"]
     return _verdict(observation, sizes, pattern, cost, picks, values, counts, ln_s, use,
-                    integral_tol, impurity_allowance, lost_allowance)
+                    integral_tol, impurity_allowance, lost_allowance, minor_fraction,
+                    weights, mixture)
+
+
+def _second_component(sizes, logs, picks, values, ln_s, weights, unexplained, partners,
+                      costs, cost_alone, mixture_cost, minor_component_cost):
+    """Try the unexplained lines as a second component; the best, if cheaper than impurities."""
+    def imp(j: int, ln_scale: float, top: float) -> float:
+        r = math.exp(logs[j] + ln_scale) / top if logs[j] is not None else 0.0
+        return costs[3] + costs[4] * r * r
+
+    top = float(values[0])
+    base = cost_alone - sum(imp(j, ln_s, top) for j in unexplained)
+    sub_logs = [logs[j] for j in unexplained]
+    total = sum(weights)
+    mine = sum(w for j, w in enumerate(weights) if picks[j] is not None)
+    best = None
+    for p_sizes, label in partners:
+        sub_cost, sub_picks, _v, sub_counts, sub_s = _fit(p_sizes, sub_logs, costs)
+        # lines neither component explains are impurities of the sample: judge their
+        # strength against the candidate's own scale, not the partner's
+        for i, k in enumerate(sub_picks):
+            if k is None:
+                j = unexplained[i]
+                sub_cost += imp(j, ln_s, top) - imp(j, sub_s, float(max(p_sizes)))
+        cost = base + sub_cost + mixture_cost
+        minor = mine < 0.5 * total
+        if minor:
+            cost += minor_component_cost
+        if best is None or cost < best["cost"] - 1e-12:
+            used = [unexplained[i] for i, k in enumerate(sub_picks) if k is not None]
+            n_used = sum(sum(k) for k in sub_picks if k is not None)
+            merges = sum(sum(k) - 1 for k in sub_picks if k is not None)
+            flaws = (sum(sub_counts) - n_used) + merges + (len(sub_picks) - len(used))
+            best = {"cost": cost, "label": label, "flaws": flaws,
+                    "pattern": Candidate("C", sum(p_sizes), 0, "", p_sizes).pattern,
+                    "lines": used, "fraction": sum(weights[j] for j in used) / total,
+                    "own_fraction": mine / total, "minor": minor}
+    if best is None or best["cost"] >= cost_alone:
+        return None
+    return best
 
 
 _WORD = {1: "one", 2: "two", 3: "three", 4: "four", 5: "five", 6: "six", 10: "ten",
          12: "twelve"}
 
 
+def _intensity_word(v: int, top: int) -> str:
+    if v == top:
+        return "full-intensity"
+    frac = Fraction(v, top)
+    if frac == Fraction(1, 2):
+        return "half-intensity"
+    return f"{frac.numerator}/{frac.denominator}-intensity"
+
+
 def _verdict(obs, sizes, pattern, cost, picks, values, counts, ln_s, use, tol,
-             impurity_allowance, lost_allowance):
+             impurity_allowance, lost_allowance, minor_fraction, weights, mixture):
     n_obs, n_pred = obs.n_lines, len(sizes)
-    impurities = [obs.positions[j] for j, k in enumerate(picks) if k is None]
+    partner_lines = set(mixture["lines"]) if mixture else set()
+    imp_idx = [j for j, k in enumerate(picks) if k is None and j not in partner_lines]
+    impurities = [obs.positions[j] for j in imp_idx]
+    total_w = sum(weights)
+    imp_fraction = sum(weights[j] for j in imp_idx) / total_w if total_w else 0.0
     used = [sum(k[i] for k in picks if k is not None) for i in range(len(values))]
-    missing = sum(c - u for c, u in zip(counts, used, strict=False))
+    missing = sum(c - u for c, u in zip(counts, used, strict=True))
     merged_lines = [(obs.positions[j], k) for j, k in enumerate(picks)
                     if k is not None and sum(k) > 1]
     extra = sum(sum(k) - 1 for _, k in merged_lines)
@@ -466,7 +591,7 @@ def _verdict(obs, sizes, pattern, cost, picks, values, counts, ln_s, use, tol,
     if use:
         for j, k in enumerate(picks):
             if k is not None:
-                c = sum(ki * v for ki, v in zip(k, values, strict=False))
+                c = sum(ki * v for ki, v in zip(k, values, strict=True))
                 errs.append(math.log(obs.integrals[j]) + ln_s - math.log(c))
     rms = float(np.sqrt(np.mean(np.square(errs)))) if errs else 0.0
 
@@ -478,20 +603,30 @@ def _verdict(obs, sizes, pattern, cost, picks, values, counts, ln_s, use, tol,
             single = sum(1 for k in picks if k is not None and sum(k) == 1 and k[i] == 1)
             if single == 0:
                 continue
-            frac = v / top
-            rel = "full-intensity" if v == top else (
-                "half-intensity" if abs(frac - 0.5) < 1e-9 else f"{v}/{top}-intensity")
             word = _WORD.get(v, str(v))
-            reasons.append(f"{single} {rel} line{'s' if single != 1 else ''} match "
-                           f"{single} of the {counts[i]} {word}-carbon orbits.")
+            reasons.append(f"{single} {_intensity_word(v, top)} line"
+                           f"{'s match' if single != 1 else ' matches'} {single} of the "
+                           f"{counts[i]} {word}-carbon orbits.")
     for p, k in merged_lines:
-        c = sum(ki * v for ki, v in zip(k, values, strict=False))
+        c = sum(ki * v for ki, v in zip(k, values, strict=True))
         reasons.append(f"the line at {p:.2f} ppm carries {sum(k)} orbits ({c} carbons; "
                        "accidental coincidence assumed).")
+    if mixture:
+        m = len(mixture["lines"])
+        if mixture["minor"]:
+            reasons.append(f"fits only as the minor component ({100 * mixture['own_fraction']:.0f} "
+                           f"% of the intensity) beside {mixture['label']} "
+                           f"({mixture['pattern']}).")
+        else:
+            reasons.append(f"{m} further line{'s' if m != 1 else ''} "
+                           f"({100 * mixture['fraction']:.0f} % of the intensity) fit a second "
+                           f"component: {mixture['label']} ({mixture['pattern']}); a mixture is "
+                           "assumed.")
     if impurities:
         shown = ", ".join(f"{p:.2f}" for p in impurities[:5])
+        more = f" and {len(impurities) - 5} more" if len(impurities) > 5 else ""
         reasons.append(f"{len(impurities)} line{'s' if len(impurities) != 1 else ''} "
-                       f"unexplained (impurity assumed): {shown} ppm.")
+                       f"unexplained (impurity assumed): {shown}{more} ppm.")
     if missing:
         reasons.append(f"{missing} orbit{'s' if missing != 1 else ''} not seen "
                        "(weak or lost in noise assumed).")
@@ -499,29 +634,42 @@ def _verdict(obs, sizes, pattern, cost, picks, values, counts, ln_s, use, tol,
         reasons.append(f"integrals agree within {100 * (math.exp(rms) - 1):.0f} % rms "
                        f"(tolerance {100 * tol:.0f} %).")
     lost_limit = max(2, math.floor(lost_allowance * n_pred))
-    if len(impurities) > impurity_allowance or lost > lost_limit:
+    too_many = len(impurities) > impurity_allowance and imp_fraction > minor_fraction
+    if too_many or lost > lost_limit:
         verdict = "ruled out"
         why = []
-        if len(impurities) > impurity_allowance:
-            why.append(f"{len(impurities)} unexplained lines exceed the allowance of "
-                       f"{impurity_allowance}")
+        if too_many:
+            why.append(f"{len(impurities)} unexplained lines ({100 * imp_fraction:.0f} % of the "
+                       f"intensity) exceed the allowance of {impurity_allowance} lines or "
+                       f"{100 * minor_fraction:.0f} %")
         if lost > lost_limit:
             why.append(f"{lost} orbits merged or missing exceed the allowance of {lost_limit}")
         reasons.insert(1, "ruled out: " + "; ".join(why) + ".")
+    elif mixture and mixture["flaws"] > NMR_PARTNER_FLAWS:
+        verdict = "unlikely"
+        reasons.append(f"the second component fits poorly ({mixture['flaws']} of its lines "
+                       "merged, missing or unexplained).")
+    elif mixture and (mixture["minor"] or mixture["flaws"] > 0 or rms > tol):
+        verdict = "possible"
     elif len(impurities) + lost <= 1 and rms <= 2 * tol:
         verdict = "consistent"
-    elif len(impurities) + lost <= 3 and rms <= 3 * tol:
+    elif len(impurities) <= impurity_allowance and lost <= 3 and rms <= 3 * tol:
         verdict = "possible"
     else:
         verdict = "unlikely"
     details = {
         "pattern": pattern, "n_observed": n_obs, "n_predicted": n_pred, "cost": cost,
-        "impurity_lines": impurities, "missing_orbits": missing, "merged_orbits": extra,
+        "impurity_lines": impurities, "impurity_fraction": imp_fraction,
+        "missing_orbits": missing, "merged_orbits": extra,
         "merged_lines": [[p, int(sum(k))] for p, k in merged_lines],
         "rms_log_integral_error": rms, "carbons_per_unit_area": math.exp(ln_s) if use else None,
         "assignment": [None if k is None
                        else int(sum(ki * v for ki, v in zip(k, values, strict=True)))
                        for k in picks],
+        "second_component": None if not mixture else {
+            "label": mixture["label"], "pattern": mixture["pattern"],
+            "lines": [obs.positions[j] for j in mixture["lines"]],
+            "fraction": mixture["fraction"], "minor": mixture["minor"]},
     }
     return TechniqueVerdict("nmr", -cost, verdict, tuple(reasons), details)
 
