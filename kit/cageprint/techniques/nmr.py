@@ -534,7 +534,12 @@ def _second_component(sizes, logs, picks, values, ln_s, weights, unexplained, pa
     total = sum(weights)
     mine = sum(w for j, w in enumerate(weights) if picks[j] is not None)
     best = None
+    n_left = len(unexplained)
     for p_sizes, label in partners:
+        # a partner must be able to explain the left-over lines with few flaws
+        if not (n_left - NMR_PARTNER_FLAWS <= len(p_sizes)
+                <= costs[1] * n_left + NMR_PARTNER_FLAWS):
+            continue
         sub_cost, sub_picks, _v, sub_counts, sub_s = _fit(p_sizes, sub_logs, costs)
         # lines neither component explains are impurities of the sample: judge their
         # strength against the candidate's own scale, not the partner's
