@@ -21,7 +21,7 @@ import numpy as np
 
 from ..errors import SpectrumError
 from .model import Spectrum
-from .processing import PeakResult
+from .peaks import PeakResult
 
 __all__ = [
     "SOLVENT_LINES",
