@@ -387,29 +387,38 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_m
 
 
 def _fit(sizes, logs, costs):
-    """Best assignment over the integral scale (alternating with the assignment)."""
+    """Best assignment over the integral scale.
+
+    Two starting scales (all carbons seen; the commonest orbit on the median
+    line) are tried; from the better one the scale is re-fitted to the
+    assigned lines and the assignment redone, until neither changes.
+    """
     use = logs and logs[0] is not None
     if not use:
         return _assign(sizes, logs, 0.0, *costs) + (0.0,)
-    best = None
     counts = {v: sizes.count(v) for v in set(sizes)}
     v_mode = max(counts, key=lambda v: (counts[v], v))
     total = sum(math.exp(ell) for ell in logs)
     starts = [math.log(sum(sizes) / total), math.log(v_mode) - float(np.median(logs))]
-    for ln_s in starts:
-        for _ in range(5):
-            res = _assign(sizes, logs, ln_s, *costs)
-            if best is None or res[0] < best[0] - 1e-12:
-                best = res + (ln_s,)
-            _cost, picks, values, _c = res
-            diffs = [math.log(sum(ki * v for ki, v in zip(k, values, strict=True))) - ell
-                     for k, ell in zip(picks, logs, strict=True) if k is not None]
-            if not diffs:
-                break
-            new_s = float(np.mean(diffs))
-            if abs(new_s - ln_s) < 1e-9:
-                break
-            ln_s = new_s
+    if abs(starts[1] - starts[0]) < 1e-3:
+        starts = starts[:1]
+    best = min((_assign(sizes, logs, ln_s, *costs) + (ln_s,) for ln_s in starts),
+               key=lambda r: r[0])
+    seen = {round(r, 6) for r in starts}
+    for _ in range(4):
+        _cost, picks, values, _c, ln_s = best
+        diffs = [math.log(sum(ki * v for ki, v in zip(k, values, strict=True))) - ell
+                 for k, ell in zip(picks, logs, strict=True) if k is not None]
+        if not diffs:
+            break
+        new_s = float(np.mean(diffs))
+        if round(new_s, 6) in seen:
+            break
+        seen.add(round(new_s, 6))
+        res = _assign(sizes, logs, new_s, *costs) + (new_s,)
+        if res[0] >= best[0] - 1e-12:
+            break
+        best = res
     return best
 
 
