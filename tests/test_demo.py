@@ -11,8 +11,7 @@ import numpy as np
 import pytest
 
 from cageprint.cli import main
-from cageprint.demo import FRACTIONS, SYNTHETIC_NOTE, ensure_demo, generate, is_current
-from cageprint.demo import synth
+from cageprint.demo import FRACTIONS, SYNTHETIC_NOTE, ensure_demo, generate, is_current, synth
 
 
 @pytest.fixture(scope="module")

@@ -205,7 +205,7 @@ def level_figure(levels, title: str = "Hückel π levels", homo: float | None = 
         text.append(f"{irrep or ''} λ={lam:.3f} ×{deg} occ {occ}")
     fig = go.Figure(layout=_BASE_LAYOUT)
     start = 0
-    for (lam, deg, _irrep, _occ), col, t in zip(levels, cols, text, strict=True):
+    for (_lam, deg, _irrep, _occ), col, t in zip(levels, cols, text, strict=True):
         n = 3 * int(deg)
         fig.add_scatter(x=xs[start:start + n], y=ys[start:start + n], mode="lines",
                         line=dict(color=col, width=3), showlegend=False, hoverinfo="text",

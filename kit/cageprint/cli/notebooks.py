@@ -120,10 +120,9 @@ def inject_parameters(nb, params: Mapping[str, object]) -> None:
         return
     import nbformat
 
-    idx = next(
-        (i for i, c in enumerate(nb.cells) if "parameters" in c.get("metadata", {}).get("tags", [])),
-        None,
-    )
+    tagged = [i for i, c in enumerate(nb.cells)
+              if "parameters" in c.get("metadata", {}).get("tags", [])]
+    idx = tagged[0] if tagged else None
     if idx is None:
         raise NotebookRunError(
             "notebook has no cell tagged 'parameters'; cannot inject "

@@ -1,4 +1,4 @@
-"""JupyterLab widgets (ipywidgets + plotly FigureWidget), thin over :class:`cageprint.session.Session`.
+"""JupyterLab widgets (ipywidgets + plotly FigureWidget), thin over the headless Session.
 
 Each widget keeps its controls as attributes (set ``.value`` from Python or
 move them in the page) and its layout in ``.ui`` (``display(widget.ui)``).

@@ -30,10 +30,20 @@ def sync_figure(fig: go.FigureWidget) -> None:
 
 
 def figure_widget(fig: go.Figure, cls: str) -> go.FigureWidget:
-    """A FigureWidget of ``fig`` carrying the CSS class ``cls``."""
+    """A FigureWidget of ``fig``; ``cls`` goes on the box :func:`boxed` puts around it.
+
+    (plotly's front end does not apply CSS classes to the figure's own node.)
+    """
     fw = go.FigureWidget(fig)
-    fw.add_class(cls)
+    fw._cp_class = cls
     return fw
+
+
+def boxed(fig: go.FigureWidget) -> w.Box:
+    """The figure inside a box that carries its stable CSS class."""
+    box = w.Box([fig])
+    box.add_class(getattr(fig, "_cp_class", "cp-figure"))
+    return box
 
 
 class Problem:

@@ -7,7 +7,7 @@ import ipywidgets as w
 from .. import figures
 from ..layout2d import schlegel_layout
 from . import _port
-from ._common import Problem, figure_widget, sync_figure
+from ._common import Problem, boxed, figure_widget, sync_figure
 
 
 def cage_figures(candidate) -> tuple:
@@ -51,7 +51,8 @@ class CageView:
         self.fig2d = figure_widget(f2 or figures.schlegel_figure([[0, 0]], [], []),
                                    "cp-schlegel")
         self.pick.observe(self._changed, names=["value"])
-        self.ui = w.VBox([self.pick, self.problem.widget, w.HBox([self.fig3d, self.fig2d])])
+        self.ui = w.VBox([self.pick, self.problem.widget,
+                          w.HBox([boxed(self.fig3d), boxed(self.fig2d)])])
         self.ui.add_class("cp-cageview")
 
     def _candidate(self, isomer):

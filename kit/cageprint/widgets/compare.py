@@ -10,7 +10,7 @@ import numpy as np
 
 from .. import figures
 from . import _port
-from ._common import Problem, figure_widget, sync_figure
+from ._common import Problem, boxed, figure_widget, sync_figure
 
 #: S/N thresholds offered (a dropdown: chemists pick round values)
 SNR_CHOICES = (3.0, 5.0, 10.0, 20.0, 50.0, 100.0, 200.0)
@@ -106,7 +106,7 @@ class ComparisonPanel:
         for c in controls + [self.pick]:
             c.observe(self._changed, names=["value"])
         self.ui = w.VBox([w.HBox(controls[:2]), w.HBox(controls[2:]), self.pick,
-                          self.problem.widget, self.table, self.fig])
+                          self.problem.widget, self.table, boxed(self.fig)])
         self.ui.add_class("cp-compare")
         self.observation = None
         self.update()

@@ -11,7 +11,7 @@ import ipywidgets as w
 from .. import figures
 from ..spectra import TECHNIQUES
 from . import _port
-from ._common import Problem, figure_widget, sync_figure
+from ._common import Problem, boxed, figure_widget, sync_figure
 
 #: file endings offered in the picker
 SPECTRUM_SUFFIXES = (".jdx", ".dx", ".jcamp", ".csv", ".tsv", ".txt", ".mzml", ".peaks")
@@ -67,7 +67,7 @@ class SpectrumLoader:
         self.upload.observe(self._on_upload, names=["value"])
         self.technique.observe(self._on_technique, names=["value"])
         self.ui = w.VBox([w.HBox([self.file, self.upload, self.technique]), self.info,
-                          self.problem.widget, self.fig])
+                          self.problem.widget, boxed(self.fig)])
         self.ui.add_class("cp-loader")
         if initial:
             self.file.value = initial
