@@ -148,7 +148,10 @@ def _column_index(
 
 def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     """Parse the numeric table; ``wanted`` maps role -> (option value, default index)."""
-    text = decode_text(data, source, opts.pop("encoding", None))
+    encoding = opts.pop("encoding", None)
+    text = decode_text(data, source, encoding)
+    utf8 = (str(encoding or "utf-8").lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig")
+            and not data.startswith((b"\xff\xfe", b"\xfe\xff")))
     max_points = opts.get("max_points", MAX_POINTS)
     nlines = text.count("\n")
     if nlines > max_points + _LINE_ALLOWANCE:
@@ -157,7 +160,8 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
             "file, or pass max_points=",
             source,
         )
-    if "\n" not in text and "\r" in text:
+    mac_endings = "\n" not in text and "\r" in text
+    if mac_endings:
         text = text.replace("\r", "\n")
     delim_opt = opts.pop("delimiter", "auto")
     dec_opt = opts.pop("decimal", "auto")
@@ -234,35 +238,53 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     use = sorted({i for i in idx.values() if i is not None})
 
     start_line, start_off = first
-    rest = text[start_off:].rstrip()
-    # comment characters anywhere (a fast scan) -> filter lines in Python; blank lines alone
-    # are skipped by the parser, and line numbers are then worked out only for a message
-    if any(c in rest for c in ("#", "%", "!", "//")) and _SKIP_LINE.search(rest):
-        kept = [(k, ln) for k, ln in enumerate(rest.split("\n"), start_line) if not _is_skip(ln)]
+    # the data lines as bytes for the C parser when the text is plain UTF-8 (no copy through a
+    # Python str); otherwise, or when comment lines must be filtered, as text
+    raw_rest = None
+    if utf8 and not mac_endings:
+        bom = 3 if data.startswith(b"\xef\xbb\xbf") else 0
+        raw_rest = data[bom + len(text[:start_off].encode("utf-8")):].rstrip()
+    has_comment_chars = (
+        any(c in raw_rest for c in (b"#", b"%", b"!", b"//")) if raw_rest is not None
+        else any(c in text[start_off:] for c in ("#", "%", "!", "//"))
+    )
+    body_cache: dict = {}
+
+    def body_text() -> str:
+        if "body" not in body_cache:
+            body_cache["body"] = text[start_off:].rstrip()
+        return body_cache["body"]
+
+    if has_comment_chars and _SKIP_LINE.search(body_text()):
+        # comment lines among the data: filter lines in Python, keeping their numbers
+        kept = [(k, ln) for k, ln in enumerate(body_text().split("\n"), start_line)
+                if not _is_skip(ln)]
         line_numbers = np.fromiter((k for k, _ in kept), dtype=np.int64, count=len(kept))
-        body = "\n".join(ln for _, ln in kept)
+        body_cache["body"] = "\n".join(ln for _, ln in kept)
+        raw_rest = None
 
         def line_of(i, _ln=line_numbers):
             return int(_ln[i]) if 0 <= i < _ln.size else None
     else:
+        # blank lines are skipped by the parser; line numbers are worked out only for messages
         kept = None
-        body = rest
         cache: dict = {}
 
         def line_of(i, _s=start_line):
             if "plain" not in cache:
-                cache["plain"] = body.count("\n") + 1 == nrows[0]
+                cache["plain"] = body_text().count("\n") + 1 == nrows[0]
             if cache["plain"]:
                 return _s + i
             if "ln" not in cache:
-                cache["ln"] = [k for k, ln in enumerate(body.split("\n"), _s) if ln.strip()]
+                cache["ln"] = [k for k, ln in enumerate(body_text().split("\n"), _s)
+                               if ln.strip()]
             return cache["ln"][i] if 0 <= i < len(cache["ln"]) else None
     nrows = [0]
 
     def locate(reason: str | None):
         """Find the first bad line (slow pass); with ``reason`` None, return if all is well."""
         seq = kept if kept is not None else (
-            (k, ln) for k, ln in enumerate(body.split("\n"), start_line)
+            (k, ln) for k, ln in enumerate(body_text().split("\n"), start_line)
         )
         for k, ln in seq:
             if not ln.strip():
@@ -292,14 +314,18 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     sep = r"\s+" if delim is None else delim
     common = dict(sep=sep, decimal=dec, header=None, engine="c", skipinitialspace=True,
                   skip_blank_lines=True, index_col=False)
+
+    def source_io():
+        return io.BytesIO(raw_rest) if raw_rest is not None else io.StringIO(body_text())
+
     try:
-        frame = pd.read_csv(io.StringIO(body), dtype=np.float64, **common)
+        frame = pd.read_csv(source_io(), dtype=np.float64, **common)
     except (ValueError, pd.errors.ParserError):
         # a bad line in a used column raises here with its line; else only unused
         # columns hold text and the used ones are re-read on their own
         locate(None)
         try:
-            frame = pd.read_csv(io.StringIO(body), usecols=use, dtype=np.float64, **common)
+            frame = pd.read_csv(source_io(), usecols=use, dtype=np.float64, **common)
         except (ValueError, pd.errors.ParserError) as exc:
             locate(str(exc).splitlines()[0][:120])
         frame.columns = use
@@ -307,10 +333,12 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
         frame = frame.iloc[:, :ncols]  # a trailing delimiter on every line
     if frame.shape[1] != ncols and frame.shape[1] != len(use):
         locate(f"{frame.shape[1]} columns where {ncols} were expected")
-    nrows[0] = len(frame)
-    cols = {i: frame[i].to_numpy(dtype=float) for i in use}
     if frame.isna().to_numpy().any():
         locate(None)
+        # only whitespace-only lines are left to explain the gaps: drop their empty rows
+        frame = frame[~frame.isna().all(axis=1)]
+    nrows[0] = len(frame)
+    cols = {i: frame[i].to_numpy(dtype=float) for i in use}
     if len(frame) > max_points:
         raise SpectrumFormatError(
             f"{len(frame)} points is more than MAX_POINTS={max_points}; crop or decimate the "
