@@ -33,6 +33,7 @@ from ._common import (
     sha256,
     x_unit_for,
 )
+from .asdf import AFFN_NUMBER, decode_line, is_compressed
 
 __all__ = ["parse_jcamp", "jcamp_blocks", "sniff_jcamp", "X_CHECK_STEPS", "Y_CHECK_RTOL"]
 
@@ -41,21 +42,6 @@ X_CHECK_STEPS = 1.0
 #: relative tolerance of the DIF Y-check for non-integer ordinates
 Y_CHECK_RTOL = 1e-9
 
-_SQZ = {c: d for d, c in enumerate("@ABCDEFGHI")} | {c: -d for d, c in
-                                                     enumerate("@abcdefghi") if d}
-_DIF = {c: d for d, c in enumerate("%JKLMNOPQR")} | {c: -d for d, c in
-                                                     enumerate("%jklmnopqr") if d}
-_DUP = {c: d for d, c in enumerate("STUVWXYZs", start=1)}
-# ASDF characters that cannot be part of an AFFN number (E/e may be exponents): one of them
-# anywhere in a table makes the whole table compressed, where E/e are then SQZ digits
-_COMPRESSED_RE = re.compile(r"[@A-DF-Ia-df-i%J-Rj-rS-Zs]")
-_TOKEN_ASDF = re.compile(
-    r"([@A-Ia-i%J-Rj-rS-Zs])(\d*(?:\.\d*)?)|([+-]?(?:\d+\.?\d*|\.\d+))|(\?)|([\s,;]+)"
-)
-_TOKEN_AFFN = re.compile(
-    r"([+-]?(?:\d+\.?\d*|\.\d+)(?:[Ee][+-]?\d+)?)|(\?)|([\s,;]+)"
-)
-_AFFN_NUM = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[Ee][+-]?\d+)?")
 _DATA_LABELS = ("XYDATA", "XYPOINTS", "PEAKTABLE", "DATATABLE", "NTUPLES", "RADATA",
                 "XYDATATABLE")
 _DATA_TYPES = (
@@ -165,79 +151,6 @@ def _number(blk: _Block, key: str, source: str, default=None):
     return v
 
 
-def _num(text: str) -> int | float:
-    return float(text) if ("." in text or "e" in text or "E" in text) else int(text)
-
-
-def _decode_line(line: str, lineno: int, compressed: bool, source: str):
-    """Decode one (X++(Y..Y)) line -> (x value, [y values], ends_in_dif)."""
-    pattern = _TOKEN_ASDF if compressed else _TOKEN_AFFN
-    vals: list = []
-    x = None
-    last = None  # ("abs"|"dif", value)
-    pos = 0
-    n = len(line)
-    while pos < n:
-        m = pattern.match(line, pos)
-        if m is None:
-            raise SpectrumFormatError(
-                f"unexpected character {line[pos]!r} in XYDATA at column {pos + 1}",
-                source, lineno,
-            )
-        pos = m.end()
-        if compressed:
-            ch, digits, affn, missing, sep = m.groups()
-        else:
-            affn, missing, sep = m.groups()
-            ch = digits = None
-        if sep is not None:
-            continue
-        if missing is not None:
-            raise SpectrumFormatError("missing value '?' in XYDATA", source, lineno)
-        if affn is not None:
-            v = _num(affn)
-            kind = "abs"
-        elif ch in _SQZ:
-            d = _SQZ[ch]
-            mag = _num(str(abs(d)) + (digits or ""))
-            v = -mag if d < 0 else mag
-            kind = "abs"
-        elif ch in _DIF:
-            d = _DIF[ch]
-            mag = _num(str(abs(d)) + (digits or ""))
-            v = -mag if d < 0 else mag
-            kind = "dif"
-        else:  # DUP
-            count = int(str(_DUP[ch]) + (digits or ""))
-            if last is None:
-                raise SpectrumFormatError(
-                    f"DUP count {ch}{digits} with no value before it", source, lineno
-                )
-            if last[0] == "x":
-                raise SpectrumFormatError("DUP applied to the X value", source, lineno)
-            for _ in range(count - 1):
-                vals.append(vals[-1] + last[1] if last[0] == "dif" else last[1])
-            continue
-        if x is None:
-            if kind == "dif":
-                raise SpectrumFormatError("line starts with a DIF value instead of X",
-                                          source, lineno)
-            x = v
-            last = ("x", v)
-            continue
-        if kind == "dif":
-            if not vals:
-                raise SpectrumFormatError(
-                    "DIF value with no ordinate before it on the line", source, lineno
-                )
-            vals.append(vals[-1] + v)
-        else:
-            vals.append(v)
-        last = (kind, v)
-    ends_dif = last is not None and last[0] == "dif"
-    return x, vals, ends_dif
-
-
 def _decode_xydata(blk: _Block, source: str, max_points: int):
     label, form, start, lines = blk.data
     if form not in ("(X++(Y..Y))", "(X++(R..R))", "(X++(I..I))"):
@@ -271,12 +184,12 @@ def _decode_xydata(blk: _Block, source: str, max_points: int):
         step = (lastx - firstx) / (npoints - 1)
     elif deltax is not None:
         step = deltax
-    compressed = any(_COMPRESSED_RE.search(t) for _, t in lines)
+    compressed = is_compressed(lines)
     ys: list = []
     xchecks: list[tuple[int, float, int]] = []
     prev_dif = False
     for lineno, text in lines:
-        x, vals, ends_dif = _decode_line(text, lineno, compressed, source)
+        x, vals, ends_dif = decode_line(text, lineno, compressed, source)
         if x is None:
             continue
         check = prev_dif and bool(vals)
@@ -366,13 +279,13 @@ def _decode_pairs(blk: _Block, source: str, max_points: int):
     for lineno, text in lines:
         if "?" in text:
             raise SpectrumFormatError(f"missing value '?' in ##{label}=", source, lineno)
-        rest = _AFFN_NUM.sub(" ", text)
+        rest = AFFN_NUMBER.sub(" ", text)
         bad = re.sub(r"[\s,;]", "", rest)
         if bad:
             raise SpectrumFormatError(
                 f"unexpected text {bad[:20]!r} in ##{label}=; expected numbers", source, lineno
             )
-        found = [float(t) for t in _AFFN_NUM.findall(text)]
+        found = [float(t) for t in AFFN_NUMBER.findall(text)]
         values.extend(found)
         lines_of.extend([lineno] * len(found))
         if len(values) > width * max_points:
@@ -431,7 +344,7 @@ def jcamp_blocks(data: bytes, source: str = BYTES_SOURCE, **_: object) -> list[d
             "table": b.data[0] if b.data else None,
             "block_id": b.labels.get("BLOCKID", (None, 0))[0],
             "npoints": int(float(npts)) if npts not in (None, "") and
-            _AFFN_NUM.fullmatch(npts.strip()) else None,
+            AFFN_NUMBER.fullmatch(npts.strip()) else None,
             "line": b.line,
         })
     return out
