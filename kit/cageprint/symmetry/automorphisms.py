@@ -256,6 +256,85 @@ def _bfs_plan(nb: np.ndarray, back: np.ndarray, root: int):
     return (np.array(order), np.array(parent), np.array(offset), kref)
 
 
+try:  # numba compiles the candidate loop; without it the numpy lock-step path is used
+    from numba import njit as _njit
+except ImportError:  # pragma: no cover - exercised only without numba
+    _njit = None
+
+
+def _plan_and_grow(nb, back, label, root, targets, out_perm, out_sense):  # pragma: no cover
+    """Spanning-tree plan from ``root`` and every candidate grown along it (compiled).
+
+    Returns the number of automorphisms written to ``out_perm`` / ``out_sense``,
+    or -1 when the graph is not connected.  Runs under numba (coverage cannot see it).
+    """
+    n = nb.shape[0]
+    kref = np.full(n, -1, dtype=np.int64)
+    order = np.empty(n, dtype=np.int64)
+    parent = np.empty(n, dtype=np.int64)
+    offset = np.empty(n, dtype=np.int64)
+    kref[root] = 0
+    order[0] = root
+    head, tail = 0, 1
+    while head < tail:
+        a = order[head]
+        head += 1
+        for j in range(3):
+            x = nb[a, (kref[a] + j) % 3]
+            if kref[x] >= 0:
+                continue
+            kref[x] = back[a, (kref[a] + j) % 3]
+            order[tail] = x
+            parent[tail] = a
+            offset[tail] = j
+            tail += 1
+    if tail != n:
+        return -1
+    img = np.empty(n, dtype=np.int64)
+    kimg = np.empty(n, dtype=np.int64)
+    stamp = np.zeros(n, dtype=np.int64)
+    found = 0
+    cur = 0
+    for t in targets:
+        for k in range(3):
+            for s in (1, -1):
+                cur += 1
+                img[root] = t
+                kimg[root] = k
+                stamp[t] = cur
+                ok = True
+                for step in range(1, n):
+                    x = order[step]
+                    a = parent[step]
+                    ia = img[a]
+                    m = (kimg[a] + s * offset[step]) % 3
+                    ix = nb[ia, m]
+                    if label[ix] != label[x] or stamp[ix] == cur:
+                        ok = False
+                        break
+                    stamp[ix] = cur
+                    img[x] = ix
+                    kimg[x] = back[ia, m]
+                if not ok:
+                    continue
+                for x in range(n):
+                    ix = img[x]
+                    for mm in range(3):
+                        if img[nb[x, mm]] != nb[ix, (kimg[x] + s * (mm - kref[x])) % 3]:
+                            ok = False
+                            break
+                    if not ok:
+                        break
+                if ok:
+                    out_perm[found, :] = img
+                    out_sense[found] = s
+                    found += 1
+    return found
+
+
+_grow_compiled = None if _njit is None else _njit(cache=True)(_plan_and_grow)
+
+
 def automorphisms(neighbours, *, validate: bool = True, faces=None) -> AutomorphismGroup:
     """All automorphisms of a cubic planar cage graph, each marked proper or improper.
 
@@ -303,9 +382,16 @@ def automorphisms(neighbours, *, validate: bool = True, faces=None) -> Automorph
     counts = np.bincount(label)
     # root in the rarest class (ties: smallest atom index)
     root = int(np.flatnonzero(counts[label] == counts[label].min())[0])
+    targets = np.flatnonzero(label == label[root])
+    if _grow_compiled is not None:
+        perms = np.empty((6 * len(targets), n), dtype=np.int64)
+        sense = np.empty(6 * len(targets), dtype=np.int64)
+        found = _grow_compiled(nb, back, label.astype(np.int64), root, targets, perms, sense)
+        if found < 0:
+            _bfs_plan(nb, back, root)  # raises the CageError naming the unreachable atoms
+        return _as_group(perms[:found], sense[:found] == 1)
     order, parent, offset, kref = _bfs_plan(nb, back, root)
 
-    targets = np.flatnonzero(label == label[root])
     t = len(targets)
     # candidates: (target atom, dart position, sense)
     cu = np.repeat(targets, 6)
@@ -337,8 +423,12 @@ def automorphisms(neighbours, *, validate: bool = True, faces=None) -> Automorph
     ok = (lhs == rhs).all(axis=(1, 2))
     srt = np.sort(img, axis=1)
     ok &= (srt == np.arange(n)[None, :]).all(axis=1)
-    perms = img[ok]
-    proper = cs[ok] == 1
+    return _as_group(img[ok], cs[ok] == 1)
+
+
+def _as_group(perms: np.ndarray, proper: np.ndarray) -> AutomorphismGroup:
+    """Put the identity first and wrap."""
+    n = perms.shape[1]
     ident = np.flatnonzero((perms == np.arange(n)[None, :]).all(axis=1) & proper)
     first = int(ident[0])
     idx = np.r_[first, np.delete(np.arange(perms.shape[0]), first)]

@@ -249,12 +249,10 @@ def topological_embedding(
         mirror[sel] = _fixes_a_cell(sub, nb, faces)
     fallback = None
     dims = [b - a for a, b in spaces]
-    combos = [
-        c
-        for r in (1, 2, 3)
-        for c in itertools.combinations(range(len(spaces)), r)
-        if sum(dims[k] for k in c) == 3
-    ]
+    by_dim = {d: [k for k, dk in enumerate(dims) if dk == d] for d in (1, 2, 3)}
+    combos = [(k,) for k in by_dim[3]]
+    combos += [tuple(sorted(c)) for c in itertools.product(by_dim[1], by_dim[2])]
+    combos += list(itertools.combinations(by_dim[1], 3))
     combos.sort(key=lambda c: (max(c), c))  # highest eigenvalues first
     for combo in combos:
         cols = np.concatenate([np.arange(*spaces[k]) for k in combo])
