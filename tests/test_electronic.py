@@ -25,11 +25,12 @@ def _profile(bands, seed=0):
 
 
 def test_onset_and_bands_of_a_synthetic_trace():
-    # invented bands; the onset rule (5 % of the maximum) is common practice, no source
+    # invented bands; the onset rule (1 % of the maximum) is common practice, no source.
+    # The 600 nm band (0.06, 1/e half-width 30 nm) falls to 0.01 at 600 + 30 sqrt(ln 6) nm
     s = _profile([(330, 1.0, 25), (405, 0.2, 8), (600, 0.06, 30)])
     obs = observe_uvvis(s)
     assert [round(b) for b in obs.bands_nm] == [330, 405, 600]
-    assert 600 < obs.onset_nm < 640
+    assert obs.onset_nm == pytest.approx(600 + 30 * np.sqrt(np.log(6)), abs=1.0)
     assert obs.onset_ev == pytest.approx(HC_EV_NM / obs.onset_nm)
     assert UvVisObservation.from_dict(obs.to_dict()) == obs
 

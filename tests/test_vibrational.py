@@ -143,6 +143,17 @@ def test_c60_ir_four_bands_and_one_nmr_line_put_ih_first_of_1812():
     assert [row.candidate.point_group for row in s.ranking.top()] == ["Ih"]
 
 
+def test_default_excludes_only_the_co2_q_branch():
+    # Krätschmer et al., Nature 1990 (the four C60 bands); CO2 bend Q branch near
+    # 667 cm-1 (from memory)
+    s = Spectrum(C60_IR + [667.5], [1.0, 0.4, 0.3, 0.35, 0.2], technique="ir", kind="peaks")
+    obs = observe_ir(s)
+    assert obs.positions == tuple(C60_IR)
+    assert obs.excluded[0]["reason"] == ("artefact region 664-671 cm-1 (atmospheric CO2 bend, "
+                                         "Q branch)")
+    assert observe_ir(s, exclude=[]).n_bands == 5
+
+
 def test_atmospheric_windows_only_on_request():
     # the water-vapour window of the reference table covers the C60 band at 1429 cm-1
     # (Krätschmer et al., Nature 1990), so it is not applied by default

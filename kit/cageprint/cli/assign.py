@@ -112,7 +112,8 @@ def _print_table(ranking, top: int, out) -> None:
     for r in ranking.rows[:top]:
         c = r.candidate
         cells = [str(r.rank) + ("=" if r.tied_with else ""), c.formula, str(c.isomer),
-                 c.point_group, f"{r.score:.2f}", r.verdict]
+                 c.point_group, f"{r.score:.2f}" if abs(r.score) >= 0.005 else "0.00",
+                 r.verdict]
         for t in techs:
             v = r.verdicts[t]
             cells.append("-" if v.verdict == "no data" else v.verdict)

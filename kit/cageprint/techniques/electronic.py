@@ -42,7 +42,8 @@ UV_REGION: tuple[float, float] = (250.0, 1100.0)
 #: one standard deviation of the gap-to-onset mismatch, eV (deliberately wide)
 UV_TOL_EV = 0.5
 #: the onset is the longest wavelength where absorbance exceeds this fraction of its maximum
-UV_ONSET_FRACTION = 0.05
+#: (and UV_SNR times the noise); fullerene visible bands are weak, a few % of the UV maximum
+UV_ONSET_FRACTION = 0.01
 #: most score the UV-vis criterion can take away
 UV_MAX_COST = 4.0
 UV_SNR = 5.0
@@ -110,7 +111,8 @@ def observe_uvvis(
     region : (low, high) nm
     onset_fraction : float
         The onset is the longest wavelength whose absorbance (above the
-        minimum in the region) reaches this fraction of the maximum.
+        1st percentile in the region) reaches this fraction of the maximum
+        and ``snr`` times the noise.
     snr, prominence : float
         Band-picking thresholds for profiles.
 
@@ -120,7 +122,7 @@ def observe_uvvis(
     >>> x = np.arange(300.0, 900.0)
     >>> y = np.exp(-((x - 330) / 40) ** 2) + 0.1 * np.exp(-((x - 600) / 15) ** 2)
     >>> obs = observe_uvvis(Spectrum(x, y, technique="uvvis"))
-    >>> 600 < obs.onset_nm < 630, [round(b) for b in obs.bands_nm]
+    >>> 620 < obs.onset_nm < 660, [round(b) for b in obs.bands_nm]
     (True, [330, 600])
     """
     if getattr(spectrum, "technique", None) != "uvvis":
@@ -146,14 +148,17 @@ def observe_uvvis(
         bands = x[y > 0]
         onset = float(bands.max()) if bands.size else None
         return UvVisObservation(onset, tuple(bands), (lo, hi), thresholds, diagnostics)
-    a = y - float(y.min())
+    a = y - float(np.percentile(y, 1))
     top = float(a.max())
-    onset = None
-    if top > 0:
-        above = np.nonzero(a >= onset_fraction * top)[0]
-        onset = float(x[above.max()])
     bands, _h, noise = find_bands(x, a, snr, prominence, 2.0)
     diagnostics["noise"] = noise
+    onset = None
+    level = max(onset_fraction * top, snr * noise)
+    diagnostics["onset_level"] = level
+    if top > 0:
+        above = np.nonzero(a >= level)[0]
+        if above.size:
+            onset = float(x[above.max()])
     return UvVisObservation(onset, tuple(bands), (lo, hi), thresholds, diagnostics)
 
 

@@ -24,6 +24,7 @@ __all__ = [
     "RAMAN_REGION",
     "BAND_SNR",
     "EXTRA_BAND_ALLOWANCE",
+    "IR_DEFAULT_EXCLUDE",
     "VibrationalObservation",
     "predict_vibrational",
     "observe_vibrational",
@@ -42,6 +43,12 @@ RAMAN_REGION: tuple[float, float] = (150.0, 1700.0)
 BAND_SNR = 5.0
 #: bands closer than this (cm-1) count as one
 BAND_MIN_SEPARATION = 4.0
+#: windows excluded by default: only the sharp Q branch of the CO2 bend (667 cm-1, from
+#: memory), which imperfect background compensation leaves in many IR spectra.  The wider
+#: atmospheric windows of cageprint.spectra.references overlap real cage bands.
+IR_DEFAULT_EXCLUDE: tuple[tuple[float, float, str], ...] = (
+    (664.0, 671.0, "atmospheric CO2 bend, Q branch"),
+)
 #: extra bands tolerated beyond the allowed fundamentals (overtones, impurities)
 EXTRA_BAND_ALLOWANCE = 2
 #: cost per extra band inside the allowance, and weight of the "fewer bands" penalty
@@ -141,7 +148,7 @@ def observe_vibrational(
     spectrum: Any,
     *,
     region: tuple[float, float] | None = None,
-    exclude: Sequence[Sequence[Any]] | str = (),
+    exclude: Sequence[Sequence[Any]] | str | None = None,
     snr: float = BAND_SNR,
     prominence: float | None = None,
     min_separation: float = BAND_MIN_SEPARATION,
@@ -155,11 +162,13 @@ def observe_vibrational(
         transmittance trace is turned upside down first) or a band list.
     region : (low, high) cm-1, optional
         Defaults to :data:`IR_REGION` or :data:`RAMAN_REGION`.
-    exclude : sequence of (low, high[, reason]) or "atmospheric"
-        Artefact windows whose bands are ignored.  Default none: the
-        atmospheric windows of :data:`cageprint.spectra.references.IR_ARTEFACTS`
+    exclude : sequence of (low, high[, reason]), "atmospheric" or None
+        Artefact windows whose bands are ignored.  None (default): for IR
+        :data:`IR_DEFAULT_EXCLUDE` (the CO2 Q branch), for Raman nothing.
+        ``"atmospheric"`` takes every window of
+        :data:`cageprint.spectra.references.IR_ARTEFACTS` -- wide ones that
         overlap real cage bands (the water-vapour window covers the C60 band
-        at 1429 cm-1), so ``"atmospheric"`` excludes them only when asked.
+        at 1429 cm-1); ``[]`` excludes nothing.
     snr, prominence, min_separation : float
         Band-picking thresholds for profiles.
 
@@ -185,7 +194,9 @@ def observe_vibrational(
     lo, hi = float(min(region)), float(max(region))
     if not hi > lo:
         raise SpectrumError(f"region must span a range of cm-1; got {region!r}")
-    if isinstance(exclude, str):
+    if exclude is None:
+        windows = IR_DEFAULT_EXCLUDE if tech == "ir" else ()
+    elif isinstance(exclude, str):
         if exclude != "atmospheric":
             raise SpectrumError(f"exclude must be 'atmospheric' or a list of (low, high) "
                                 f"windows; got {exclude!r}")
