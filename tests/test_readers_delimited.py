@@ -130,3 +130,43 @@ def test_file_object_and_path(tmp_path):
         s = load_spectrum(fh)
     assert s.meta["source"] == str(p)
     assert load_spectrum(str(p)).x.tolist() == [1.0, 2.0]
+
+
+def test_encodings():
+    # the remedy the undecodable-text message names works
+    data = "x (cm-1),y\n400,1\n402,2 \u00b5\n".encode("latin-1").replace(b" \xb5", b"")
+    data = b"# \xb5-sample\n" + data
+    s = parse_delimited(data, technique="ir", encoding="latin-1")
+    assert s.x.tolist() == [400.0, 402.0]
+    # UTF-16 with a byte-order mark (spreadsheet exports)
+    s = load_spectrum("m/z\tintensity\n720\t100\n721\t65\n".encode("utf-16"))
+    assert s.technique == "mass" and s.y.tolist() == [100.0, 65.0]
+    with pytest.raises(SpectrumFormatError, match=r"unknown text encoding 'klingon'"):
+        parse_delimited(b"1,2\n3,4\n", technique="ir", encoding="klingon")
+
+
+def test_jcamp_with_bom_is_sniffed():
+    from cageprint.spectra import Spectrum, write_jcamp
+
+    data = b"\xef\xbb\xbf" + write_jcamp(Spectrum([1.0, 2.0], [1.0, 2.0], technique="ir"))
+    assert load_spectrum(data).meta["format"] == "jcamp"
+
+
+def test_as_absorbance():
+    # A = -log10(T) (decadic absorbance; definition)
+    from cageprint.spectra import Spectrum, as_absorbance
+
+    t = Spectrum([500.0, 600.0, 700.0], [1.0, 0.1, 0.01], technique="ir", y_unit="transmittance")
+    a, d = as_absorbance(t)
+    assert np.allclose(a.y, [0.0, 1.0, 2.0]) and a.y_unit == "absorbance" and d["converted"]
+    assert as_absorbance(a)[0] is a
+    with pytest.raises(Exception, match=r"as_absorbance needs transmittance .* not "
+                       r"y_unit='intensity'"):
+        as_absorbance(Spectrum([1.0, 2.0], [1.0, 2.0], technique="raman"))
+
+
+def test_utf16_jcamp():
+    from cageprint.spectra import Spectrum, write_jcamp
+
+    text = write_jcamp(Spectrum([1.0, 2.0], [1.0, 2.0], technique="ir")).decode()
+    assert load_spectrum(text.encode("utf-16")).meta["format"] == "jcamp"

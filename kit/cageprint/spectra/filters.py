@@ -33,6 +33,7 @@ __all__ = [
     "NOISE_CLIP",
     "NOISE_DILATE",
     "crop",
+    "as_absorbance",
     "smooth",
     "smooth_array",
     "estimate_baseline",
@@ -119,6 +120,35 @@ def smooth(
         raise SpectrumError(f"order={order} must be >= 0 and < window={window}")
     y = savgol_filter(spectrum.y, window, order, mode="interp")
     return spectrum.replace(y=y), {"method": "savitzky-golay", "window": window, "order": order}
+
+
+def as_absorbance(spectrum: Spectrum) -> tuple[Spectrum, dict]:
+    """Turn a transmittance (or %T) spectrum into decadic absorbance, A = -log10(T).
+
+    An absorbance spectrum is returned unchanged; other y meanings are refused.
+
+    Examples
+    --------
+    >>> s = Spectrum([500.0, 600.0], [10.0, 1.0], technique="ir",
+    ...              y_unit="percent transmittance")
+    >>> a, d = as_absorbance(s)
+    >>> a.y.tolist(), a.y_unit, d["from"]
+    ([1.0, 2.0], 'absorbance', 'percent transmittance')
+    """
+    from .units import transmittance_to_absorbance
+
+    unit = spectrum.y_unit
+    if unit == "absorbance":
+        return spectrum, {"from": unit, "converted": False}
+    if unit not in ("transmittance", "percent transmittance"):
+        raise SpectrumError(
+            f"as_absorbance needs transmittance or percent transmittance, not y_unit={unit!r}"
+        )
+    try:
+        a = transmittance_to_absorbance(spectrum.y, percent=unit == "percent transmittance")
+    except SpectrumError as exc:
+        raise SpectrumError(f"as_absorbance: {exc}") from None
+    return spectrum.replace(y=a, y_unit="absorbance"), {"from": unit, "converted": True}
 
 
 def _need_profile(spectrum: Spectrum, what: str) -> None:

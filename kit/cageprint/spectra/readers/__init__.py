@@ -130,6 +130,8 @@ def _choose_format(data: bytes, source: str, ext: str | None, fmt: str | None) -
     if is_blank(data):
         raise SpectrumFormatError("empty input: no data at all", source)
     head = data[:SNIFF_BYTES]
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")):  # UTF-16 text: sniff its UTF-8 form
+        head = head[: len(head) // 2 * 2].decode("utf-16", errors="ignore").encode("utf-8")
     best, best_score = None, 0.0
     for info in READERS.values():
         if info.sniff is None:

@@ -29,6 +29,7 @@ from ._common import (
     build_spectrum,
     check_binary,
     guess_from_unit,
+    is_blank,
     resolve_technique,
     sha256,
     x_unit_for,
@@ -351,8 +352,13 @@ def jcamp_blocks(data: bytes, source: str = BYTES_SOURCE, **_: object) -> list[d
 
 
 def _decode(data: bytes, source: str) -> str:
-    if not data or not data.strip():
+    if is_blank(data):
         raise SpectrumFormatError("empty input: no data at all", source)
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        try:
+            return data.decode("utf-16")
+        except UnicodeDecodeError as exc:
+            raise SpectrumFormatError(f"undecodable UTF-16 text: {exc.reason}", source) from None
     check_binary(data, source)
     try:
         return data.decode("utf-8-sig")
@@ -518,7 +524,7 @@ def parse_jcamp(data: bytes, source: str = BYTES_SOURCE, *, technique: str | Non
 
 def sniff_jcamp(head: bytes) -> float:
     """Confidence that ``head`` starts a JCAMP-DX file."""
-    text = head.lstrip()[:200].upper()
+    text = head.removeprefix(b"\xef\xbb\xbf").lstrip()[:200].upper()
     if text.startswith(b"##TITLE") or text.startswith(b"##JCAMP"):
         return 1.0
     return 0.3 if b"##XYDATA" in head.upper() or b"##JCAMP-DX" in head.upper() else 0.0
