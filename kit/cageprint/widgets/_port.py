@@ -68,10 +68,4 @@ def export(session, record_path, report_path) -> None:
     """Write the assignment record (JSON) and the HTML report."""
     from .. import report
 
-    session.save(record_path)
-    for name in ("write_report", "html_report", "save_report"):
-        fn = getattr(report, name, None)
-        if callable(fn):
-            fn(session, report_path)
-            return
-    raise AttributeError("cageprint.report offers no report writer")
+    report.write_report(session, report_path, record_path=record_path)
