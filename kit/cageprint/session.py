@@ -574,6 +574,10 @@ class Session:
 
     load = _hybrid(classmethod(_restore), _load_spectrum)
 
+    def load_spectrum(self, technique: str, source: Any, **options: Any) -> Spectrum:
+        """Read a spectrum for a technique (the same as ``session.load(technique, ...)``)."""
+        return self._load_spectrum(technique, source, **options)
+
     # ------------------------------------------------------------ convenience
 
     def techniques_with_data(self) -> tuple[str, ...]:
