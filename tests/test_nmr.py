@@ -257,6 +257,11 @@ def test_pyramidalization_planar_and_c60():
     sticks = estimated_stick_spectrum(c60)
     assert sticks.heights == (60,)
     assert "estimate" in sticks.label
+    # the same from a Candidate (rebuilt from its spiral)
+    assert estimated_stick_spectrum(Candidate.from_cage(c60)) == sticks
+    with pytest.raises(EvidenceError, match="expected a Cage, or a Candidate or Fingerprint "
+                                            "with a face spiral; got int"):
+        estimated_stick_spectrum(60)
 
 
 def test_c70_estimate_puts_equatorial_belt_upfield():

@@ -750,9 +750,10 @@ def estimated_stick_spectrum(cage: Any, prediction: Any = None, *,
 
     Parameters
     ----------
-    cage : Cage
-        Needs ``.neighbours``; the geometry defaults to
-        ``cageprint.symmetry.symmetric_geometry(cage)``.
+    cage : Cage, Candidate or Fingerprint
+        A Cage needs ``.neighbours`` (the geometry defaults to
+        ``cageprint.symmetry.symmetric_geometry(cage)``); a Candidate or a
+        Fingerprint is rebuilt from its face spiral.
     prediction : NmrPrediction or Fingerprint, optional
         Needs ``.orbits`` (atom tuples); defaults to ``predict_nmr(cage)``.
     geometry : (n, 3) array, optional
@@ -764,6 +765,16 @@ def estimated_stick_spectrum(cage: Any, prediction: Any = None, *,
     ESTIMATE_C60_ANGLE_DEG)``.  The geometry is a symmetric model, not an
     optimised structure, so only the order of the sticks means anything.
     """
+    if not hasattr(cage, "neighbours"):
+        spiral = getattr(cage, "spiral", None)
+        if not spiral:
+            raise EvidenceError("estimated_stick_spectrum: expected a Cage, or a Candidate or "
+                                f"Fingerprint with a face spiral; got {type(cage).__name__}")
+        if prediction is None and hasattr(cage, "nmr") and hasattr(cage.nmr, "orbits"):
+            prediction = cage.nmr
+        from ..cage import Cage
+
+        cage = Cage.from_spiral(int(cage.n), tuple(spiral))
     if prediction is None:
         prediction = predict_nmr(cage)
     nmr = getattr(prediction, "nmr", prediction)
