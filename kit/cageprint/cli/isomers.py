@@ -2,7 +2,9 @@
 
 The rows are built from :data:`COLUMNS`, a list of ``(header, function)``
 pairs taking a :class:`~cageprint.cage.Cage` and returning a value; more
-columns (e.g. fingerprints) are added by appending to that list.
+columns (e.g. fingerprints) are added by appending to that list.  The
+``isomer`` column is the number in the list shown: the IPR number with
+``--ipr``, the number among all isomers without.
 """
 
 from __future__ import annotations
@@ -40,7 +42,8 @@ def rows(n: int, ipr: bool = False, progress: bool = False):
     ['C28', 2, '1 2 3 5 7 9 10 11 12 13 14 15', 18]
     """
     n = check_n(n, name="N")  # fail before the header is printed
-    columns = list(COLUMNS)
+    listed = (lambda c: c.isomer) if ipr else (lambda c: c.isomer_all)
+    columns = [(name, listed if name == "isomer" else fn) for name, fn in COLUMNS]
 
     def _rows():
         yield [name for name, _ in columns]

@@ -1,0 +1,199 @@
+"""Isomer enumeration and numbering: counts against the published sequences, order, numbers."""
+
+from __future__ import annotations
+
+import itertools
+
+import networkx as nx
+import numpy as np
+import pytest
+
+from cageprint.cage import Cage, count_isomers, isomer_number, iter_isomers, iter_spirals
+from cageprint.errors import CageError
+
+# Number of fullerene isomers C_n, all isomers: OEIS A007894; P. W. Fowler and
+# D. E. Manolopoulos, An Atlas of Fullerenes, Clarendon Press, 1995 (from memory).
+ALL_COUNTS = {
+    20: 1, 24: 1, 26: 1, 28: 2, 30: 3, 32: 6, 34: 6, 36: 15, 38: 17, 40: 40, 42: 45,
+    44: 89, 46: 116, 48: 199, 50: 271, 52: 437, 54: 580, 56: 924, 58: 1205, 60: 1812,
+}
+# Same source (OEIS A007894 / Atlas of Fullerenes 1995, from memory)
+C70_ALL = 8149
+
+# IPR isomers C_n: OEIS A046880; Fowler & Manolopoulos, An Atlas of Fullerenes, 1995 (from memory).
+IPR_COUNTS = {
+    60: 1, 62: 0, 64: 0, 66: 0, 68: 0, 70: 1, 72: 1, 74: 1, 76: 2, 78: 5, 80: 7, 82: 9,
+    84: 24, 86: 19, 88: 35, 90: 46, 92: 86, 94: 134, 96: 187, 98: 259, 100: 450,
+}
+
+
+def _euler(cage: Cage) -> None:
+    # Euler relations: common practice, no source
+    n = cage.n
+    assert cage.face_sizes.count(5) == 12
+    assert cage.face_sizes.count(6) == n // 2 - 10
+    assert len(cage.bonds) == 3 * n // 2
+    assert n - len(cage.bonds) + len(cage.faces) == 2
+    assert {len(r) for r in cage.faces} <= {5, 6}
+
+
+@pytest.fixture(scope="module")
+def all_upto_60():
+    return {n: list(iter_isomers(n)) for n in ALL_COUNTS}
+
+
+def test_all_isomer_counts_20_to_60(all_upto_60):
+    found = {n: len(v) for n, v in all_upto_60.items()}
+    assert found == ALL_COUNTS
+
+
+def test_no_isomers_of_c22():
+    with pytest.raises(CageError, match=r"n=22: no fullerene C22 exists"):
+        count_isomers(22)
+
+
+def test_every_enumerated_cage_obeys_euler_and_is_numbered_in_order(all_upto_60):
+    for n, cages in all_upto_60.items():
+        spirals = [c.spiral for c in cages]
+        assert spirals == sorted(spirals), n  # canonical-spiral lexicographic order
+        assert len(set(spirals)) == len(spirals)
+        assert [c.isomer_all for c in cages] == list(range(1, len(cages) + 1))
+        for c in cages:
+            assert c.spiral[0] == 1  # a canonical spiral starts at a pentagon
+            assert c.canonical_spiral == c.spiral
+            _euler(c)
+
+
+def test_enumerated_spirals_are_canonical_when_rebuilt(all_upto_60):
+    # rebuild from the spiral alone (no hints) and recompute the canonical spiral
+    for n in (40, 50):
+        for c in all_upto_60[n]:
+            again = Cage.from_spiral(n, c.spiral)
+            assert again.canonical_spiral == c.spiral
+
+
+def test_isomers_are_pairwise_different_graphs(all_upto_60):
+    # an independent check that no cage is listed twice: adjacency spectra differ, or
+    # networkx finds no isomorphism (common practice, no source)
+    for n in (36, 40, 44):
+        cages = all_upto_60[n]
+        spectra = [
+            np.round(np.linalg.eigvalsh(nx.to_numpy_array(c.graph())), 8) for c in cages
+        ]
+        for i, j in itertools.combinations(range(len(cages)), 2):
+            if np.array_equal(spectra[i], spectra[j]):
+                assert not nx.is_isomorphic(cages[i].graph(), cages[j].graph())
+
+
+def test_fused_start_rule_loses_nothing_up_to_50():
+    # the search with the canonicity rule and the exhaustive one agree (common practice, no source)
+    for n in range(20, 52, 2):
+        if n == 22:
+            continue
+        fast = np.concatenate(list(iter_spirals(n)))
+        slow = np.concatenate(list(iter_spirals(n, fused_rule=False)))
+        assert np.array_equal(fast, slow), n
+
+
+@pytest.mark.slow
+def test_all_isomer_count_c70():
+    # OEIS A007894 / Atlas of Fullerenes (1995), from memory: 8,149 isomers of C70, the last
+    # of which is the one IPR isomer (D5h), spiral 1 7 9 11 13 15 27 29 31 33 35 37
+    spirals = np.concatenate(list(iter_spirals(70)))
+    assert len(spirals) == C70_ALL
+    assert tuple(spirals[-1].tolist()) == (1, 7, 9, 11, 13, 15, 27, 29, 31, 33, 35, 37)
+
+
+def test_ipr_counts_60_to_100():
+    found = {n: count_isomers(n, ipr=True) for n in IPR_COUNTS}
+    assert found == IPR_COUNTS
+
+
+def test_ipr_lists_are_ipr_and_numbered():
+    for n in (78, 84):
+        cages = list(iter_isomers(n, ipr=True))
+        assert [c.isomer for c in cages] == list(range(1, len(cages) + 1))
+        for c in cages:
+            assert c.is_ipr and c.fused_pentagon_pairs == 0
+            _euler(c)
+
+
+def test_c60_ipr_is_last_of_all_and_first_of_ipr(all_upto_60):
+    # Atlas of Fullerenes (1995), from memory: Ih C60 = IPR isomer 1 = isomer 1812 of all
+    ih = (1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32)
+    assert all_upto_60[60][-1].spiral == ih
+    assert [c.spiral for c in iter_isomers(60, ipr=True)] == [ih]
+    assert isomer_number(60, ih) == 1
+    assert isomer_number(60, ih, ipr=True) == 1
+    assert isomer_number(60, ih, ipr=False) == 1812
+    ipr = [c for c in all_upto_60[60] if c.is_ipr]
+    assert len(ipr) == 1
+
+
+def test_c84_ipr_numbering():
+    # Atlas of Fullerenes (1995), from memory: 24 IPR isomers of C84; the two major isomers
+    # are D2 (22) and D2d (23), and 24 is Td.  Point groups are not computed here; the order of
+    # the graph automorphism group (= point-group order for these cages) is: D2 4, D2d 8, Td 24.
+    from networkx.algorithms.isomorphism import GraphMatcher
+
+    cages = list(iter_isomers(84, ipr=True))
+    assert len(cages) == 24
+    by_number = {c.isomer: c for c in cages}
+    orders = {}
+    for k in (22, 23, 24):
+        g = by_number[k].graph()
+        orders[k] = sum(1 for _ in GraphMatcher(g, g).isomorphisms_iter())
+    assert orders == {22: 4, 23: 8, 24: 24}
+    # numbering is stable: any spiral of the cage gives back the same number
+    for k in (22, 23):
+        assert isomer_number(84, by_number[k].spiral) == k
+        assert Cage.from_spiral(84, by_number[k].spiral).isomer == k
+
+
+def test_ipr_c70():
+    # Atlas of Fullerenes (1995), from memory: the one IPR C70 has spiral
+    # 1 7 9 11 13 15 27 29 31 33 35 37
+    spiral = (1, 7, 9, 11, 13, 15, 27, 29, 31, 33, 35, 37)
+    c = Cage.from_spiral(70, spiral)
+    assert c.is_ipr and c.isomer == 1
+    assert isomer_number(70, spiral, ipr=True) == 1
+
+
+def test_isomer_number_non_ipr_literature_number(all_upto_60):
+    for c in all_upto_60[40][::7]:
+        assert isomer_number(40, c.spiral) == c.isomer_all == c.isomer
+
+
+def test_isomer_number_rejects_ipr_for_fused_cage():
+    with pytest.raises(
+        CageError,
+        match=r"spiral 1 2 3 4 5 6 7 8 9 10 11 12: this C20 cage has 30 fused pentagon pair\(s\), "
+        r"so it has no IPR isomer number; pass ipr=False",
+    ):
+        isomer_number(20, range(1, 13), ipr=True)
+
+
+def test_isomer_number_validates_input():
+    with pytest.raises(CageError, match=r"spiral has 11 positions, expected 12"):
+        isomer_number(60, range(1, 12))
+
+
+def test_iter_isomers_streams():
+    # the generator yields before the search is finished
+    it = iter_isomers(60)
+    first = next(it)
+    assert first.isomer_all == 1 and first.spiral[:2] == (1, 2)
+    it.close()
+
+
+def test_iter_isomers_bad_n_raises_on_first_use():
+    with pytest.raises(CageError, match=r"n=61: a fullerene has an even number of atoms"):
+        next(iter_isomers(61))
+
+
+def test_progress_bar_goes_to_stderr(capsys):
+    cages = list(iter_isomers(40, progress=True))
+    assert len(cages) == 40
+    out, err = capsys.readouterr()
+    assert out == ""
+    assert "C40 isomers" in err and "40" in err
