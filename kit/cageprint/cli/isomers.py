@@ -30,6 +30,20 @@ COLUMNS: list[tuple[str, Callable[[Cage], object]]] = [
 ]
 
 
+def _fingerprint_column(name: str) -> Callable[[Cage], object]:
+    from ..symmetry import fingerprint  # cached per cage: one analysis serves every column
+
+    return lambda c: fingerprint(c).columns()[name]
+
+
+#: predicted fingerprint columns (point group, 13C pattern, IR/Raman counts, Hückel gap)
+COLUMNS += [
+    (name, _fingerprint_column(name))
+    for name in ("point_group", "nmr_lines", "nmr_pattern", "ir_active", "raman_active",
+                 "gap_beta")
+]
+
+
 def rows(n: int, ipr: bool = False, progress: bool = False):
     """Yield the header, then one list of values per isomer.
 
@@ -37,9 +51,10 @@ def rows(n: int, ipr: bool = False, progress: bool = False):
     --------
     >>> for row in rows(28):
     ...     print(row)
-    ['formula', 'isomer', 'spiral', 'fused_pentagon_pairs']
-    ['C28', 1, '1 2 3 4 5 7 10 12 13 14 15 16', 20]
-    ['C28', 2, '1 2 3 5 7 9 10 11 12 13 14 15', 18]
+    ['formula', 'isomer', 'spiral', 'fused_pentagon_pairs', 'point_group', 'nmr_lines',
+     'nmr_pattern', 'ir_active', 'raman_active', 'gap_beta']
+    ['C28', 1, '1 2 3 4 5 7 10 12 13 14 15 16', 20, 'D2', 7, '7x4', 57, 78, 0.0934]
+    ['C28', 2, '1 2 3 5 7 9 10 11 12 13 14 15', 18, 'Td', 3, '2x12+1x4', 11, 23, 0.0]
     """
     n = check_n(n, name="N")  # fail before the header is printed
     listed = (lambda c: c.isomer) if ipr else (lambda c: c.isomer_all)
