@@ -305,3 +305,21 @@ def test_trace_faces_of_c60():
     # Euler's formula for a fullerene, no source needed: 12 pentagons and n/2 - 10 hexagons
     faces = trace_faces(Cage.from_spiral(60, C60_IH).neighbours)
     assert sorted(len(f) for f in faces) == [5] * 12 + [6] * 20
+
+
+def test_numpy_fallback_finds_the_same_automorphisms(monkeypatch):
+    # common practice, no source: the compiled and the numpy search must agree exactly
+    import sys
+
+    mod = sys.modules["cageprint.symmetry.automorphisms"]
+    cages = [ipr(70, 1), ipr(78, 5), ipr(84, 20), Cage.from_spiral(60, C60_IH)]
+    fast = [automorphisms(c.neighbours) for c in cages]
+    monkeypatch.setattr(mod, "_grow_compiled", None)
+
+    def as_set(g):
+        return {(tuple(p), q) for p, q in zip(g.perms.tolist(), g.proper.tolist(), strict=True)}
+
+    for c, a in zip(cages, fast, strict=True):
+        b = automorphisms(c.neighbours)
+        assert as_set(a) == as_set(b)
+        assert (b.perms[0] == np.arange(c.n)).all()

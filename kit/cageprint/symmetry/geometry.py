@@ -347,7 +347,7 @@ def relax(coords, neighbours, *, iterations: int = 2000) -> np.ndarray:
         return float((wt * e * e).sum()), grad.ravel()
 
     res = minimize(energy, x0.ravel(), jac=True, method="L-BFGS-B",
-                   options={"maxiter": iterations, "gtol": 1e-9})
+                   options={"maxiter": iterations, "gtol": 1e-7})
     return res.x.reshape(n, 3)
 
 

@@ -1,0 +1,31 @@
+"""Fingerprint columns of `cageprint isomers`."""
+
+from __future__ import annotations
+
+import csv
+import io
+
+from cageprint.cli import main
+
+COLUMNS = ["point_group", "nmr_lines", "nmr_pattern", "ir_active", "raman_active", "gap_beta"]
+
+
+def test_csv_has_fingerprint_columns_for_c78(capsys):
+    # Diederich et al., Science 1991 (C78 isomers by 13C NMR; counts from memory):
+    # D3 13 lines, C2v 21, C2v' 22, D3h 8 and 8
+    assert main(["isomers", "78", "--ipr", "--csv"]) == 0
+    table = list(csv.DictReader(io.StringIO(capsys.readouterr().out)))
+    assert list(table[0])[-6:] == COLUMNS
+    got = [(r["point_group"], int(r["nmr_lines"])) for r in table]
+    assert got == [("D3", 13), ("C2v", 21), ("C2v", 22), ("D3h", 8), ("D3h", 8)]
+    assert table[0]["nmr_pattern"] == "13x6"
+    assert all(float(r["gap_beta"]) >= 0 for r in table)
+
+
+def test_readable_table_shows_c70_pattern(capsys):
+    # Taylor et al., J. Chem. Soc., Chem. Commun. 1990: C70 five lines 1:2:1:2:1;
+    # Dresselhaus, Dresselhaus & Eklund 1996: 31 IR- and 53 Raman-active modes
+    assert main(["isomers", "70", "--ipr"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0].split()[-6:] == COLUMNS
+    assert lines[1].split()[-6:] == ["D5h", "5", "2x20+3x10", "31", "53", "0.5293"]
