@@ -96,12 +96,13 @@ NMR_IMPURITY_ALLOWANCE = 3
 NMR_LOST_ALLOWANCE = 0.3
 
 #: stick-spectrum estimate from POAV pyramidalisation: shift at the C60 angle and
-#: slope.  From memory: C60 resonates near 143 ppm (pyramidalisation 11.6 deg);
-#: in C70 the more pyramidal polar carbons lie ~20 ppm downfield of the flatter
-#: equatorial belt.  Order-of-magnitude figures for an ESTIMATE of line order only.
+#: slope.  From memory: C60 resonates near 143 ppm (pyramidalisation 11.6 deg); in
+#: C70 the polar carbons lie ~20 ppm downfield of the flatter equatorial belt, whose
+#: angle in the symmetric model geometry is ~8 deg smaller, hence 2.5 ppm per degree.
+#: Order-of-magnitude figures for an ESTIMATE of line order only.
 ESTIMATE_PPM_AT_C60 = 143.2
 ESTIMATE_C60_ANGLE_DEG = 11.64
-ESTIMATE_PPM_PER_DEG = 5.0
+ESTIMATE_PPM_PER_DEG = 2.5
 
 
 def predict_nmr(cage_or_fingerprint: Any):
