@@ -123,6 +123,16 @@ def test_shared_copies_open_without_kernel_or_internet(runs, name):
         assert html.count("plotly.js v") == 1
 
 
+@pytest.mark.slow
+def test_nmr_notebook_on_the_mixture_fraction(tmp_path, truth):
+    # the same template on other inputs, as `cageprint run-notebooks --param` does
+    frac = truth["fractions"]["C"]
+    res = run_notebook(default_notebooks_dir() / "03-carbon-13-nmr.ipynb", tmp_path, {
+        "NMR_FILE": f"demo-data/{frac['files']['nmr']}", "FORMULA": frac["formula"],
+        "SAMPLE": "C"})
+    _check_top(res.conclusion, truth)
+
+
 def test_parameters_are_injected_after_the_parameters_cell():
     nb = nbformat.v4.new_notebook()
     p = nbformat.v4.new_code_cell("SNR = 5")

@@ -21,7 +21,7 @@ from . import synth
 from .scenario import FRACTIONS, LAB, SOOT_EXTRACT, SYNTHETIC_NOTE, CageTruth, Fraction
 
 #: bump when the generated files change in any way
-GENERATOR_VERSION = "1"
+GENERATOR_VERSION = "2"
 #: the scenario's seed
 SEED = 20261201
 #: FWHM of the synthetic 13C lines, ppm
