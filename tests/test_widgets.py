@@ -136,6 +136,15 @@ def test_malformed_file_shows_error_and_keeps_previous_spectrum(tmp_path):
     np.testing.assert_array_equal(np.array(loader.fig.data[0].y), y_before)
 
 
+def test_correcting_the_technique_rereads_the_file(tmp_path):
+    _write_ir_csv(tmp_path / "band.csv")
+    s = Session()
+    loader = SpectrumLoader(s, folder=tmp_path, technique="ir", initial="band.csv")
+    loader.technique.value = "raman"
+    assert set(s.spectra) == {"raman"} and loader.spectrum.technique == "raman"
+    assert 'data-technique="raman"' in loader.info.value
+
+
 def test_upload_reads_bytes(tmp_path):
     _write_ir_csv(tmp_path / "up.csv", shift=2.0)
     s = Session()

@@ -288,6 +288,16 @@ def schlegel_figure(xy, bonds, orbits: Sequence[Sequence[int]], title: str = "")
     return fig
 
 
+#: a few rules so the tables read the same in widgets, notebooks and HTML exports
+_TABLE_STYLE = (
+    "<style>.cp-table{border-collapse:collapse;font-size:12px;margin:4px 0}"
+    ".cp-table th,.cp-table td{padding:2px 8px;text-align:left;vertical-align:top;"
+    "border-bottom:1px solid #dde3e8}.cp-table th{border-bottom:2px solid #26323a}"
+    ".cp-table caption{text-align:left;font-weight:600;padding:2px 0}"
+    ".cp-table tr.cp-picked td{background:#fdf1d8}</style>"
+)
+
+
 def _cell(v: Any) -> str:
     if isinstance(v, float):
         return "" if np.isnan(v) else f"{v:.3g}"
@@ -331,7 +341,7 @@ def html_table(
     marked = {str(h) for h in highlight}
     shown = rows if max_rows is None else rows[:max_rows]
     parts = [f'<table class="cp-table" data-cp-table="{html.escape(name)}" '
-             f'data-rows="{len(rows)}">']
+             f'data-rows="{len(rows)}">', _TABLE_STYLE]
     if caption:
         parts.append(f"<caption>{html.escape(caption)}</caption>")
     parts.append("<thead><tr>" + "".join(f"<th>{html.escape(c)}</th>" for c in cols)

@@ -85,6 +85,10 @@ class SpectrumLoader:
                               is not None else f"Could not read {shown}: {exc}")
             return False
         self.problem.clear()
+        previous = self.spectrum
+        if previous is not None and previous.technique != spec.technique \
+                and self.source == (name or str(source)):
+            self.session.unload(previous.technique)  # the technique was corrected
         self.spectrum = spec
         self.source = name or str(source)
         self._show()
