@@ -242,3 +242,69 @@ def test_no_reader_executes_or_unpickles(tmp_path):
     with pytest.raises(SpectrumFormatError, match=r"line 3: non-numeric cell"):
         load_spectrum(payload)
     assert not marker.exists()
+
+
+def _mutate(rng, data: bytes, alphabet: bytes) -> bytes:
+    d = bytearray(data)
+    for _ in range(int(rng.integers(1, 6))):
+        i = int(rng.integers(0, max(len(d), 1)))
+        op = int(rng.integers(0, 4))
+        if op == 0 and d:
+            d[i] = alphabet[int(rng.integers(0, len(alphabet)))]
+        elif op == 1:
+            del d[i:i + int(rng.integers(1, 20))]
+        elif op == 2:
+            d[i:i] = bytes(rng.choice(list(alphabet), int(rng.integers(1, 10))))
+        else:
+            d = d[:i]
+    return bytes(d)
+
+
+def test_fuzzed_text_inputs_raise_only_format_errors():
+    # common practice, no source: seeded random corruption of valid files must end in a
+    # SpectrumFormatError (or a spectrum), never in another exception
+    from cageprint.spectra import write_csv, write_jcamp_link
+
+    rng = np.random.default_rng(0)
+    x = np.arange(400, 800, 2.0)
+    s = Spectrum(x, rng.integers(0, 1000, x.size) * 1e-3, technique="ir", y_unit="absorbance")
+    p = Spectrum([527.0, 577.0], [1.0, 0.5], technique="ir", kind="peaks", widths=[3.0, 4.0])
+    seeds = [write_jcamp(s, form=f, yfactor=1e-3)
+             for f in ("AFFN", "PAC", "SQZ", "DIF", "DUP", "XYPOINTS")]
+    seeds += [write_jcamp(p), write_jcamp_link([s, p], forms=["DIF", None], yfactor=1e-3),
+              write_csv(s), write_csv(s, delimiter=";", decimal=","), write_csv(p)]
+    alphabet = (b"0123456789.,;+-eE \t\n#$=()?@ABCDEFGHIJKLMNOPQRSTUVWXYZ"
+                b"abcdefghijklmnopqrstuvwxyz%\x00\xff")
+    for trial in range(800):
+        data = _mutate(rng, seeds[trial % len(seeds)], alphabet)
+        try:
+            load_spectrum(data)
+        except SpectrumFormatError:
+            pass
+
+
+def test_fuzzed_mzml_raises_only_format_errors(tmp_path):
+    psims = pytest.importorskip("psims.mzml.writer")
+    import warnings
+
+    mz = np.linspace(715.0, 730.0, 101)
+    path = tmp_path / "z.mzML"
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        with psims.MzMLWriter(open(path, "wb"), close=True) as out:
+            out.controlled_vocabularies()
+            with out.run(id="r"):
+                with out.spectrum_list(count=1):
+                    out.write_spectrum(mz, np.exp(-((mz - 720) ** 2)), id="scan=1",
+                                       centroided=False, compression="zlib",
+                                       params=["MS1 spectrum", {"ms level": 1}])
+    seed = path.read_bytes()
+    rng = np.random.default_rng(1)
+    alphabet = b"0123456789<>/=\"' abcdefghijklmnopqrstuvwxyzABCDEFGHIJKLMNOPQRSTUVWXYZ+/\n"
+    for _ in range(25):
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                load_spectrum(_mutate(rng, seed, alphabet), format="mzml")
+        except SpectrumFormatError:
+            pass

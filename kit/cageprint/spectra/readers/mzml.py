@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import io
 import re
+import zlib
 
 import numpy as np
 
@@ -52,7 +53,13 @@ def _spectra(data: bytes, source: str):
     except etree.XMLSyntaxError as exc:
         line = getattr(exc, "lineno", None)
         raise SpectrumFormatError(f"not well-formed mzML XML: {exc.msg}", source, line) from None
-    except (PyteomicsError, KeyError, ValueError, TypeError, AttributeError, OSError) as exc:
+    except SpectrumFormatError:
+        raise
+    except MemoryError:
+        raise
+    except (PyteomicsError, zlib.error, Exception) as exc:  # noqa: BLE001 - any library failure
+        # a corrupt file can fail anywhere inside the XML, base64 or zlib layers of the library;
+        # all of it is reported as one readable error naming the file
         raise SpectrumFormatError(
             f"unreadable mzML ({type(exc).__name__}: {str(exc)[:120]})", source
         ) from None
