@@ -25,7 +25,9 @@ plus :data:`NMR_MERGE_COST` per extra orbit.  Unused orbits cost
 fitted by alternating with the assignment.  When more lines are left over than
 :data:`NMR_IMPURITY_ALLOWANCE`, each other candidate pattern (``partners``) is
 fitted to them in turn; a mixture is assumed if that is cheaper than calling
-them impurities.  The score is minus the cost.
+them impurities, counting :data:`NMR_MIXTURE_COST` plus ln C(lines, partner
+lines) for the freedom of splitting the lines between two components.  The
+score is minus the cost.
 """
 
 from __future__ import annotations
@@ -557,7 +559,13 @@ def _second_component(sizes, logs, picks, values, ln_s, weights, unexplained, pa
             if k is None:
                 j = unexplained[i]
                 sub_cost += imp(j, ln_s, top) - imp(j, sub_s, float(max(p_sizes)))
-        cost = base + sub_cost + mixture_cost
+        # which lines belong to which component is itself a choice fitted to the data:
+        # charge its log-count, ln C(lines, partner lines), besides the fixed mixture cost
+        m = sum(1 for k in sub_picks if k is not None)
+        n_all = len(logs)
+        partition = (math.lgamma(n_all + 1) - math.lgamma(m + 1)
+                     - math.lgamma(n_all - m + 1))
+        cost = base + sub_cost + mixture_cost + partition
         minor = mine < 0.5 * total
         if minor:
             cost += minor_component_cost
