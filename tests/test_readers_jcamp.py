@@ -229,3 +229,19 @@ def test_sniffing_beats_extension(tmp_path):
 def test_latin1_title_is_tolerated():
     data = write_jcamp(_ir(), form="AFFN", yfactor=YF).replace(b"demo IR", b"demo \xb0C")
     assert parse_jcamp(data).meta["title"] == "demo \xb0C"
+
+
+def test_xfactor_and_yfactor_hand_written():
+    # JCAMP-DX 4.24 (McDonald and Wilks 1988): FIRSTX/LASTX are in real units; the X on each
+    # XYDATA line and all XYPOINTS values are multiplied by XFACTOR, ordinates by YFACTOR
+    head = (b"##TITLE=f\n##JCAMP-DX=4.24\n##DATA TYPE=UV/VIS SPECTRUM\n##XUNITS=NANOMETERS\n"
+            b"##YUNITS=ABSORBANCE\n##XFACTOR=2\n##YFACTOR=0.5\n")
+    s = parse_jcamp(head + b"##FIRSTX=400\n##LASTX=404\n##NPOINTS=3\n##XYDATA=(X++(Y..Y))\n"
+                    b"200 1 2 3\n##END=\n")
+    assert s.technique == "uvvis" and s.x.tolist() == [400.0, 402.0, 404.0]
+    assert s.y.tolist() == [0.5, 1.0, 1.5]
+    s = parse_jcamp(head + b"##NPOINTS=2\n##XYPOINTS=(XY..XY)\n200,4; 250.5,6\n##END=\n")
+    assert s.x.tolist() == [400.0, 501.0] and s.y.tolist() == [2.0, 3.0]
+    with pytest.raises(SpectrumFormatError, match=r"line 13: X-check failed: the line's X=800"):
+        parse_jcamp(head + b"##FIRSTX=400\n##LASTX=404\n##NPOINTS=3\n##XYDATA=(X++(Y..Y))\n"
+                    b"200 1 2\n400 3\n##END=\n")
