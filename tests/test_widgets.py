@@ -180,3 +180,21 @@ def test_board_weights_rerank_and_show(session):
     board.weights["nmr"].value = 0.0
     assert session.weights["nmr"] == 0.0
     assert board.table.value != before
+
+
+def test_cage_view_follows_the_picked_candidate():
+    from cageprint.widgets import CageView
+
+    s = Session("C76")
+    s.set_candidates(ipr=True)
+    view = CageView(s, isomer=1)
+    names = [t.name for t in view.fig3d.data[1:]]
+    # Fowler & Manolopoulos, An Atlas of Fullerenes (1995): C76 D2 has 19 four-carbon orbits,
+    # C76 Td 2x24 + 2x12 + 1x4 (from memory; also what cageprint.symmetry finds)
+    assert len(names) == 19 and set(n.split(": ")[1] for n in names) == {"4 C"}
+    view.pick.value = 2
+    sizes = sorted(int(t.name.split(": ")[1].split()[0]) for t in view.fig3d.data[1:])
+    assert sizes == [4, 12, 12, 24, 24]
+    assert [t.name for t in view.fig2d.data[1:]] == [t.name for t in view.fig3d.data[1:]]
+    assert "(Td)" in view.fig3d.layout.title.text
+    assert view.problem.message == ""

@@ -107,3 +107,36 @@ def test_html_table_escapes_and_marks():
     assert "<caption>a&lt;b</caption>" in html
     assert '<p class="cp-more">1 more rows not shown</p>' in html
     assert 'data-key="2"' not in html  # cut by max_rows
+
+
+def _dodecahedron_coords():
+    phi = (1 + 5**0.5) / 2
+    pts = [(x, y, z) for x in (-1, 1) for y in (-1, 1) for z in (-1, 1)]
+    for a in (-1, 1):
+        for b in (-1, 1):
+            pts += [(0, a / phi, b * phi), (a / phi, b * phi, 0), (a * phi, 0, b / phi)]
+    xyz = np.array(pts, float)
+    d = np.linalg.norm(xyz[:, None] - xyz[None], axis=-1)
+    edges = [(i, j) for i in range(20) for j in range(i + 1, 20) if abs(d[i, j] - 2 / phi) < 1e-9]
+    return xyz, edges
+
+
+def test_schlegel_projection_is_crossing_free_with_the_face_outside():
+    # Schlegel 1883: projecting a convex polyhedron through one face gives a plane drawing
+    # with that face enclosing the rest (dodecahedron coordinates: common practice, no source)
+    from cageprint.layout2d import schlegel_projection
+
+    xyz, edges = _dodecahedron_coords()
+    assert len(edges) == 30
+    g = nx.Graph(edges)
+    ok, emb = nx.check_planarity(g)
+    u, v = edges[0]
+    face = emb.traverse_face(u, v)
+    xy = schlegel_projection(xyz, face)
+    radius = np.hypot(*xy.T)
+    assert radius[[a for a in range(20) if a not in face]].max() < radius[face].min()
+    for (a, b), (c, d) in itertools.combinations(edges, 2):
+        if len({a, b, c, d}) == 4:
+            assert not _crosses(xy[a], xy[b], xy[c], xy[d]), (a, b, c, d)
+    with pytest.raises(CageError, match="atoms lie beyond the eye"):
+        schlegel_projection(xyz, face, beyond=-0.5)

@@ -18,7 +18,11 @@ from scipy.sparse.linalg import spsolve
 
 from .errors import CageError
 
-__all__ = ["tutte_layout", "schlegel_layout"]
+__all__ = ["tutte_layout", "schlegel_layout", "schlegel_projection"]
+
+#: the eye sits this far beyond the outer face's centre, as a fraction of its distance
+#: from the cage centre (close enough that the face encloses everything else)
+EYE_BEYOND_FACE = 0.15
 
 
 def tutte_layout(n: int, bonds, outer_face: Sequence[int]) -> np.ndarray:
@@ -87,6 +91,65 @@ def tutte_layout(n: int, bonds, outer_face: Sequence[int]) -> np.ndarray:
     sol = np.column_stack([spsolve(mat, rhs[:, 0]), spsolve(mat, rhs[:, 1])])
     xy[free] = sol
     return xy
+
+
+def schlegel_projection(coords, outer_face: Sequence[int],
+                        beyond: float = EYE_BEYOND_FACE) -> np.ndarray:
+    """Perspective projection of a convex cage through one face (a Schlegel diagram).
+
+    The eye is put on the line from the cage centre through the centre of
+    ``outer_face``, a little outside the face; every atom is projected onto a
+    plane perpendicular to that line.  The outer face then encloses the rest
+    of the drawing.  The result is scaled so the outer face's atoms lie at
+    radius 1 on average.
+
+    Parameters
+    ----------
+    coords : array_like of shape (n, 3)
+        Atom positions of a (near) convex cage.
+    outer_face : sequence of int
+        Atoms of the face to look through.
+    beyond : float
+        Eye distance beyond the face, as a fraction of the face's distance from the centre.
+
+    Returns
+    -------
+    numpy.ndarray of shape (n, 2)
+
+    Notes
+    -----
+    V. Schlegel, "Theorie der homogen zusammengesetzten Raumgebilde", Nova Acta Leopoldina 44
+    (1883): the projection of a polytope through one of its facets.
+
+    Examples
+    --------
+    >>> cube = [[x, y, z] for x in (-1, 1) for y in (-1, 1) for z in (-1, 1)]
+    >>> xy = schlegel_projection(cube, [1, 3, 7, 5])   # the z = +1 face
+    >>> bool(np.all(np.hypot(*xy[[0, 2, 6, 4]].T) < 1))  # the far face lies inside
+    True
+    """
+    x = np.asarray(coords, float)
+    face = [int(a) for a in outer_face]
+    centre = x.mean(axis=0)
+    fc = x[face].mean(axis=0)
+    axis = fc - centre
+    dist = float(np.linalg.norm(axis))
+    if dist == 0.0:
+        raise CageError("outer_face: its centre coincides with the cage centre; pick another")
+    axis /= dist
+    eye = centre + axis * dist * (1.0 + beyond)
+    rel = x - eye
+    depth = -(rel @ axis)
+    if np.any(depth <= 0):
+        raise CageError(f"coords: atoms lie beyond the eye (beyond={beyond}); the cage is not "
+                        "convex enough for this face, pass a larger beyond or use tutte_layout")
+    ref = np.array([1.0, 0.0, 0.0]) if abs(axis[0]) < 0.9 else np.array([0.0, 1.0, 0.0])
+    e1 = np.cross(axis, ref)
+    e1 /= np.linalg.norm(e1)
+    e2 = np.cross(axis, e1)
+    xy = np.column_stack([rel @ e1, rel @ e2]) / depth[:, None]
+    xy -= xy[face].mean(axis=0)
+    return xy / float(np.mean(np.hypot(*xy[face].T)))
 
 
 def schlegel_layout(cage, outer: int | None = None) -> tuple[np.ndarray, tuple[int, ...]]:

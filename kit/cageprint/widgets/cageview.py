@@ -5,7 +5,8 @@ from __future__ import annotations
 import ipywidgets as w
 
 from .. import figures
-from ..layout2d import schlegel_layout
+from ..errors import CageError
+from ..layout2d import schlegel_layout, schlegel_projection, tutte_layout
 from . import _port
 from ._common import Problem, boxed, figure_widget, sync_figure
 
@@ -19,7 +20,11 @@ def cage_figures(candidate) -> tuple:
     fp = fingerprint(cage)
     orbits = fp.nmr.orbits
     geo = symmetric_geometry(cage)
-    xy, _face = schlegel_layout(cage)
+    _xy, face = schlegel_layout(cage)
+    try:  # a perspective view through one hexagon reads best; Tutte's drawing if it fails
+        xy = schlegel_projection(geo.coords, face)
+    except CageError:
+        xy = tutte_layout(cage.n, cage.bonds, face)
     title = f"{candidate.formula} isomer {candidate.isomer} ({fp.point_group}), " \
             f"13C pattern {fp.nmr.pattern}"
     return (figures.cage3d_figure(geo.coords, cage.bonds, orbits, title=title),
