@@ -126,3 +126,18 @@ def test_level_energies_are_adjacency_eigenvalues():
     lam = np.sort(np.linalg.eigvalsh(a))[::-1]
     ours = np.repeat([lv[0] for lv in el.levels], [lv[1] for lv in el.levels])
     assert np.allclose(ours, lam, atol=1e-9)
+
+
+@pytest.mark.parametrize("n, isomer", [(60, 1), (70, 1), (84, 20), (84, 23), (84, 24), (80, 7)])
+def test_levels_spanning_the_embedding_carry_the_irreps_of_xyz(n, isomer):
+    # common practice, no source: the eigenvectors used as coordinates transform like
+    # (x, y, z), so their levels must reduce to the table's x, y, z irreps (this catches a
+    # wrong class assignment, e.g. C5 against C5^2, which would swap T1u and T2u)
+    from cageprint.symmetry import cage_symmetry
+
+    cage = ipr(n, isomer)
+    cs = cage_symmetry(cage)
+    el = predict_electronic(cage)
+    labels = [el.levels[k][2] for k in cs.embedding.levels]
+    parts = sorted(p for lab in labels for p in lab.split("+"))
+    assert parts == sorted(cs.table.linear)

@@ -55,8 +55,10 @@ __all__ = [
     "CACHE_SIZE",
 ]
 
-#: how many cages (graph analyses) and fingerprints the caches keep
-CACHE_SIZE = 2048
+#: how many fingerprints the cache keeps (small objects)
+CACHE_SIZE = 4096
+#: how many full graph analyses (eigenvectors, automorphisms: ~100 kB each) are kept
+ANALYSIS_CACHE_SIZE = 256
 #: a symmetry-operation tolerance for identifying the point group of exact matrices
 OPS_TOL = 1e-6
 #: largest allowed spread of a level character within a class, or of a multiplicity
@@ -400,7 +402,7 @@ class _LRU:
             self.data.popitem(last=False)
 
 
-_SYM_CACHE = _LRU(CACHE_SIZE)
+_SYM_CACHE = _LRU(ANALYSIS_CACHE_SIZE)
 _FP_CACHE = _LRU(CACHE_SIZE)
 _GEO_CACHE = _LRU(64)
 
