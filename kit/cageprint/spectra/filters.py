@@ -18,7 +18,6 @@ from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
-from scipy.signal import savgol_filter
 
 from ..errors import SpectrumError
 from .model import Spectrum
@@ -118,6 +117,8 @@ def smooth(
         )
     if not 0 <= order < window:
         raise SpectrumError(f"order={order} must be >= 0 and < window={window}")
+    from scipy.signal import savgol_filter  # scipy.signal is slow to import: only when used
+
     y = savgol_filter(spectrum.y, window, order, mode="interp")
     return spectrum.replace(y=y), {"method": "savitzky-golay", "window": window, "order": order}
 
@@ -340,6 +341,8 @@ def smooth_array(y: np.ndarray, window: int, order: int = SMOOTH_ORDER) -> np.nd
         window = y.size if y.size % 2 else y.size - 1
     if window <= order:
         return np.asarray(y, dtype=float)
+    from scipy.signal import savgol_filter
+
     return savgol_filter(y, window, order, mode="interp")
 
 

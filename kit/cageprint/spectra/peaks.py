@@ -8,7 +8,6 @@ from types import MappingProxyType
 from typing import Any
 
 import numpy as np
-from scipy.signal import find_peaks, peak_widths
 
 from ..errors import SpectrumError
 from .filters import (
@@ -256,6 +255,8 @@ def pick_peaks(
     """
     if fit not in _FITS:
         raise SpectrumError(f"fit={fit!r} is not one of {', '.join(_FITS)}")
+    from scipy.signal import find_peaks, peak_widths  # slow to import: only when used
+
     s = spectrum
     diag: dict[str, Any] = {"region": tuple(region) if region is not None else None}
     if region is not None:

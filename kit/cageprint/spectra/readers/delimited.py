@@ -14,7 +14,6 @@ import re
 from dataclasses import dataclass, field
 
 import numpy as np
-import pandas as pd
 
 from ...errors import SpectrumFormatError
 from ..units import normalise_y_unit
@@ -148,6 +147,8 @@ def _column_index(
 
 def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     """Parse the numeric table; ``wanted`` maps role -> (option value, default index)."""
+    import pandas as pd  # slow to import: only when a table is read
+
     encoding = opts.pop("encoding", None)
     text = decode_text(data, source, encoding)
     utf8 = (str(encoding or "utf-8").lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig")
