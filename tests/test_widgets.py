@@ -198,3 +198,21 @@ def test_cage_view_follows_the_picked_candidate():
     assert [t.name for t in view.fig2d.data[1:]] == [t.name for t in view.fig3d.data[1:]]
     assert "(Td)" in view.fig3d.layout.title.text
     assert view.problem.message == ""
+
+
+def test_board_export_writes_record_and_report(session, tmp_path):
+    import json
+
+    board = AssignmentBoard(session, out_dir=tmp_path / "out", name="frac-x")
+    rec, rep = board.export()
+    assert json.loads(rec.read_text())  # the record is JSON
+    assert "<html" in rep.read_text().lower()
+    assert "frac-x.json" in board.exported.value and board.problem.message == ""
+
+
+def test_board_export_failure_is_shown(session, tmp_path):
+    blocker = tmp_path / "taken"
+    blocker.write_text("a file where the output folder should be")
+    board = AssignmentBoard(session, out_dir=blocker / "sub")
+    assert board.export() is None
+    assert "Export failed, nothing was overwritten" in board.problem.message

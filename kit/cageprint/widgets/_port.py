@@ -65,7 +65,7 @@ def weights(session) -> dict[str, float]:
 
 
 def export(session, record_path, report_path) -> None:
-    """Write the assignment record (JSON) and the HTML report."""
-    from .. import report
+    """Write the assignment record (JSON with checksums, thresholds, table) and the HTML report."""
+    from ..report import write_report
 
-    report.write_report(session, report_path, record_path=record_path)
+    write_report(session, report_path, record_path=record_path)

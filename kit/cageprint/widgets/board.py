@@ -105,10 +105,10 @@ class AssignmentBoard:
 
     def export(self, _button=None) -> tuple[pathlib.Path, pathlib.Path] | None:
         """Write the assignment record (JSON) and the HTML report; say where."""
-        self.out_dir.mkdir(parents=True, exist_ok=True)
         rec = self.out_dir / f"{self.name.value or 'assignment'}.json"
         rep = rec.with_suffix(".html")
         try:
+            self.out_dir.mkdir(parents=True, exist_ok=True)
             _port.export(self.session, rec, rep)
         except Exception as exc:
             self.problem.show(f"Export failed, nothing was overwritten: {exc}")
