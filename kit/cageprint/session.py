@@ -31,6 +31,7 @@ Examples
 
 from __future__ import annotations
 
+import functools
 import inspect
 import json
 import re
@@ -146,17 +147,18 @@ _COMPARE: dict[str, Callable[..., TechniqueVerdict]] = {
 }
 
 
-def _param_names(fn: Callable[..., Any]) -> set[str]:
+@functools.lru_cache(maxsize=64)
+def _param_names(fn: Callable[..., Any]) -> frozenset[str]:
     if fn is _observe_mass:
         try:
             from .techniques.mass import observe_mass
         except ImportError:
-            return set()
+            return frozenset()
         fn = observe_mass
     params = inspect.signature(fn).parameters.values()
-    return {p.name for p in params if (p.kind == p.KEYWORD_ONLY
-            or (p.kind == p.POSITIONAL_OR_KEYWORD and p.default is not p.empty))
-            and p.name not in _INTERNAL}
+    return frozenset(p.name for p in params if (p.kind == p.KEYWORD_ONLY
+                     or (p.kind == p.POSITIONAL_OR_KEYWORD and p.default is not p.empty))
+                     and p.name not in _INTERNAL)
 
 
 #: comparison arguments the session fills itself (not user thresholds)
@@ -214,6 +216,7 @@ class Session:
         self.cage_charge = 0
         self.ipr: bool | None = None
         self.candidates: tuple[Candidate, ...] = ()
+        self._partners: list[tuple[tuple[int, ...], str]] | None = None
         self.spectra: dict[str, Spectrum] = {}
         self.sources: dict[str, str] = {}
         self._thresholds: dict[str, dict[str, Any]] = {t: {} for t in TECHNIQUE_ORDER}
@@ -250,6 +253,7 @@ class Session:
         self.formula = formula.strip()
         self.n = n
         self.candidates = ()
+        self._partners = None
         self._drop_comparisons()
 
     def set_candidates(self, candidates: Iterable[Candidate] | None = None, *,
@@ -281,6 +285,7 @@ class Session:
             if candidates and self.formula is None:
                 self.formula, self.n = candidates[0].formula, candidates[0].n
         self.candidates = tuple(candidates)
+        self._partners = None
         self._drop_comparisons()
 
     # ------------------------------------------------------------ spectra
@@ -446,7 +451,9 @@ class Session:
         names = _param_names(_COMPARE[technique])
         opts = {k: v for k, v in self._thresholds[technique].items() if k in names}
         if technique == "nmr" and "partners" not in opts:
-            opts["partners"] = self._nmr_partners()
+            if self._partners is None:
+                self._partners = self._nmr_partners()
+            opts["partners"] = self._partners
         return opts
 
     def _nmr_partners(self) -> list[tuple[tuple[int, ...], str]]:

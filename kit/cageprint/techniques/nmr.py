@@ -32,6 +32,7 @@ score is minus the cost.
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
 from collections.abc import Mapping, Sequence
@@ -329,11 +330,9 @@ def _orbit_sizes(prediction: Any) -> tuple[int, ...]:
     return sizes
 
 
-def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_miss):
-    """Best explanation of the lines by the orbits, for one integral scale.
-
-    Returns (cost, per-line choice vectors or None for impurity, values, counts).
-    """
+@functools.lru_cache(maxsize=256)
+def _layout(sizes: tuple[int, ...], max_merge: int):
+    """The DP's fixed parts for one pattern: sizes, options, slices, unused-orbit grid."""
     values = sorted(set(sizes), reverse=True)
     counts = [sizes.count(v) for v in values]
     dims = tuple(c + 1 for c in counts)
@@ -344,10 +343,21 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_m
     contents = np.array([sum(ki * v for ki, v in zip(k, values, strict=True))
                          for k in options], float)
     n_orb = np.array([sum(k) for k in options])
-    merge = c_merge * (n_orb - 1)
-    log_contents = np.log(contents)
     slices = [(tuple(slice(0, d - ki) for d, ki in zip(dims, k, strict=True)),
                tuple(slice(ki, d) for d, ki in zip(dims, k, strict=True))) for k in options]
+    grids = np.indices(dims)
+    unused = sum(c - g for c, g in zip(counts, grids, strict=True))
+    return values, counts, dims, options, np.log(contents), n_orb, slices, unused
+
+
+def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_miss):
+    """Best explanation of the lines by the orbits, for one integral scale.
+
+    Returns (cost, per-line choice vectors or None for impurity, values, counts).
+    """
+    values, counts, dims, options, log_contents, n_orb, slices, unused = _layout(
+        tuple(sizes), int(max_merge))
+    merge = c_merge * (n_orb - 1)
     inf = math.inf
     dp = np.full(dims, inf)
     dp[(0,) * len(dims)] = 0.0
@@ -373,8 +383,6 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_m
                 choice[dst][better] = o
         dp = new
         choices.append(choice)
-    grids = np.indices(dims)
-    unused = sum(c - g for c, g in zip(counts, grids, strict=True))
     total = dp + c_miss * unused
     flat = int(np.argmin(total))
     state = list(np.unravel_index(flat, dims))
