@@ -170,3 +170,19 @@ def test_utf16_jcamp():
 
     text = write_jcamp(Spectrum([1.0, 2.0], [1.0, 2.0], technique="ir")).decode()
     assert load_spectrum(text.encode("utf-16")).meta["format"] == "jcamp"
+
+
+def test_metadata_from_comment_and_header_lines():
+    data = (b"# C60 fraction 3 (invented)\n"
+            b"# Sample: fraction 3\n"
+            b"# solvent = CS2 + C6D6\n"
+            b"# Spectrometer frequency: 125,7 MHz\n"
+            b"Hz\tintensity\n12500\t1\n18750\t2\n")
+    s = load_spectrum(data)
+    assert s.meta["title"] == "C60 fraction 3 (invented)"
+    assert s.meta["sample"] == "fraction 3" and s.meta["solvent"] == "CS2 + C6D6"
+    assert s.meta["observe_mhz"] == 125.7
+    # Hz -> ppm with the frequency found in the file (definition of the ppm scale)
+    assert s.technique == "nmr" and np.allclose(s.x, [12500 / 125.7, 18750 / 125.7])
+    assert s.meta["comments"][0] == "C60 fraction 3 (invented)"
+    assert load_spectrum(data, observe_mhz=100.0).x.tolist() == [125.0, 187.5]

@@ -43,6 +43,17 @@ _NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
 _NONFINITE = re.compile(r"[+-]?(?:nan|inf|infinity)", re.I)
 _BRACKET_UNIT = re.compile(r"^(.*?)\s*[\(\[]\s*(.*?)\s*[\)\]]\s*$")
 _SKIP_LINE = re.compile(r"^[ \t]*(?:#|%|!|//|\r?$)", re.M)
+# "key: value" (or "key = value") comment and header lines that fill the metadata
+_META_KEYS = {
+    "title": "title", "sample": "sample", "sample name": "sample", "solvent": "solvent",
+    "instrument": "instrument", "frequency": "observe_mhz", "observe frequency": "observe_mhz",
+    "spectrometer frequency": "observe_mhz", "observe mhz": "observe_mhz",
+}
+_KEY_VALUE = re.compile(
+    r"^\s*(" + "|".join(sorted((k.replace(" ", r"[\s_-]*") for k in _META_KEYS), key=len,
+                               reverse=True)) + r")\s*[:=]\s*(.+)$",
+    re.I,
+)
 _CANDIDATES = (("\t", "."), ("\t", ","), (";", "."), (";", ","), (",", "."), (None, "."),
                (None, ","))
 # names that imply an x unit when the header has no bracketed unit (common practice)
@@ -116,6 +127,7 @@ class _Table:
     header: list[str] = field(default_factory=list)
     delimiter: str | None = None
     decimal: str = "."
+    comments: list[str] = field(default_factory=list)
 
 
 def _parse_name(name: str) -> tuple[str, str | None]:
@@ -178,8 +190,11 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     header: list[tuple[int, str]] = []
     first = None
     sniff: list[str] = []
+    comments: list[str] = []
     for lineno, offset, line in _lines(text):
         if _is_skip(line):
+            if first is None and line.strip() and len(comments) < MAX_HEADER_LINES:
+                comments.append(line.strip().lstrip("#%!/").strip())
             continue
         if first is None:
             if any(_numeric_fields(line, d, c) for d, c in cands):
@@ -350,7 +365,7 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
         names=names, units=units, columns={r: cols[i] if i is not None else None
                                            for r, i in idx.items()},
         line_of=line_of, start_line=start_line, header=[h for _, h in header],
-        delimiter=delim, decimal=dec,
+        delimiter=delim, decimal=dec, comments=comments,
     )
     table.idx = idx
     return table
@@ -387,7 +402,7 @@ def _guess(table: _Table, x_unit: str | None) -> tuple[str | None, str]:
 
 
 def _meta(table: _Table, data: bytes, source: str, fmt: str) -> dict:
-    return {
+    m = {
         "source": source,
         "sha256": sha256(data),
         "format": fmt,
@@ -395,7 +410,23 @@ def _meta(table: _Table, data: bytes, source: str, fmt: str) -> dict:
         "delimiter": {None: "whitespace", "\t": "tab"}.get(table.delimiter, table.delimiter),
         "decimal": table.decimal,
         "header_lines": list(table.header),
+        "comments": list(table.comments),
     }
+    for text in table.comments + table.header:
+        k = _KEY_VALUE.match(text)
+        if not k:
+            continue
+        key = _META_KEYS[re.sub(r"[\s_-]+", " ", k.group(1).strip().lower())]
+        value = k.group(2).strip()
+        if key == "observe_mhz":
+            num = _NUMBER.match(value.replace(",", "."))
+            if num:
+                m.setdefault(key, float(num.group(0)))
+        else:
+            m.setdefault(key, value)
+    if "title" not in m and table.comments:
+        m["title"] = table.comments[0]
+    return m
 
 
 def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str | None = None,
@@ -452,6 +483,7 @@ def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str |
     m.update(meta or {})
     if observe_mhz is not None:
         m["observe_mhz"] = float(observe_mhz)
+    observe_mhz = m.get("observe_mhz")
     if xu == "Hz" and observe_mhz is None:
         raise SpectrumFormatError(
             "x is in Hz; pass observe_mhz= (the spectrometer frequency in MHz) to get ppm", source
@@ -492,12 +524,15 @@ def parse_peaklist(data: bytes, source: str = BYTES_SOURCE, *, technique: str | 
     tech = resolve_technique(technique, guessed, False, source, why)
     yname, yunit = _units_of(table, table.idx["y"])
     yu = normalise_y_unit(y_unit or yunit or yname or "intensity")
+    m = _meta(table, data, source, "peaklist")
+    m.update(meta or {})
+    if observe_mhz is not None:
+        m["observe_mhz"] = float(observe_mhz)
+    observe_mhz = m.get("observe_mhz")
     if xu == "Hz" and observe_mhz is None:
         raise SpectrumFormatError(
             "x is in Hz; pass observe_mhz= (the spectrometer frequency in MHz) to get ppm", source
         )
-    m = _meta(table, data, source, "peaklist")
-    m.update(meta or {})
     widths = table.columns.get("width")
     if widths is not None and np.any(widths < 0):
         i = int(np.flatnonzero(widths < 0)[0])
