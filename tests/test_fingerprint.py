@@ -210,3 +210,23 @@ def test_predict_functions_accept_a_fingerprint_source():
     assert predict_nmr(cage) is fp.nmr
     assert predict_vibrational(cage) is fp.vib
     assert predict_electronic(cage) is fp.elec
+
+
+def test_non_cage_graphs_are_refused_by_the_cage_model():
+    # the cage model validates graphs (issue 2); the fingerprint never sees a non-cage
+    import networkx as nx
+
+    from cageprint.errors import CageError
+
+    with pytest.raises(CageError, match=r"graph atom count=8: a fullerene has at least 20 atoms"):
+        fingerprint(Cage.from_graph(nx.cubical_graph()))
+    with pytest.raises(CageError, match=r"neighbours: expected an \(n, 3\) integer array"):
+        fingerprint(np.zeros((20, 4), dtype=int))
+
+
+def test_plain_neighbour_table_and_cage_share_the_analysis():
+    cage = ipr(70, 1)
+    a = fingerprint(cage)
+    b = fingerprint(cage.neighbours.tolist())
+    assert b.spiral is None and a.spiral == tuple(cage.spiral)
+    assert a.nmr is b.nmr and a.vib is b.vib

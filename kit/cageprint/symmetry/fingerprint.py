@@ -643,15 +643,16 @@ def fingerprint(cage, charge: int = 0) -> Fingerprint:
     ('Td', '1x4')
     """
     nb = _neighbours_of(cage)
-    key = (_key(nb), int(charge))
+    spiral = getattr(cage, "spiral", None)
+    spiral = None if spiral is None else tuple(int(v) for v in spiral)
+    key = (_key(nb), int(charge), spiral)
     hit = _FP_CACHE.get(key)
     if hit is not None:
         return hit
     cs = cage_symmetry(nb)
-    spiral = getattr(cage, "spiral", None)
     fp = Fingerprint(
         n=int(nb.shape[0]),
-        spiral=None if spiral is None else tuple(int(v) for v in spiral),
+        spiral=spiral,
         charge=int(charge),
         point_group=cs.point_group,
         group_order=cs.group.order,
