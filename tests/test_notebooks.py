@@ -94,8 +94,14 @@ def _check_05(c, truth):
     assert c["onset_nm"] is not None
 
 
+def _check_06(c, truth):
+    _check_top(c, truth)
+    assert c["formula"] == truth["fractions"][c["fraction"]]["formula"]
+    assert [p.rsplit(".", 1)[1] for p in c["exported"]] == ["json", "html"]
+
+
 CHECKS = {"00": _check_00, "01": _check_01, "02": _check_02, "03": _check_top,
-          "04": _check_top, "05": _check_05, "06": _check_top}
+          "04": _check_top, "05": _check_05, "06": _check_06}
 
 
 @pytest.mark.slow
