@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import functools
 import json
+from collections import Counter
 
 import numpy as np
 import pytest
@@ -205,3 +207,28 @@ def test_endohedral_cage_charge_from_formula():
     assert s.cage_charge == -6
     assert Session("C80").cage_charge == 0
     assert Session("Sc3N@C80", cage_charge=-4).cage_charge == -4
+
+
+def test_threshold_change_counted_by_wrapping_the_functions(session, monkeypatch):
+    # count real calls (not only the session's own counters)
+    from cageprint import session as session_mod
+
+    calls = Counter()
+    for table, kind in ((session_mod._OBSERVE, "observe"), (session_mod._COMPARE, "compare")):
+        for t, fn in list(table.items()):
+            def counted(fn, key):
+                @functools.wraps(fn)           # keeps the signature the session reads
+                def wrapped(*a, **k):
+                    calls[key] += 1
+                    return fn(*a, **k)
+                return wrapped
+            monkeypatch.setitem(table, t, counted(fn, f"{kind}:{t}"))
+    _ = session.ranking
+    calls.clear()
+    session.set_threshold("uvvis", "onset_fraction", 0.02)
+    _ = session.ranking
+    assert dict(calls) == {"observe:uvvis": 1, "compare:uvvis": 5}
+    calls.clear()
+    session.set_weight("nmr", 2.0)
+    _ = session.ranking
+    assert dict(calls) == {}
