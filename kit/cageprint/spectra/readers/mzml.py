@@ -38,7 +38,7 @@ def _check(data: bytes, source: str) -> None:
         )
 
 
-def _spectra(data: bytes, source: str):
+def _spectra(data: bytes, source: str, decode: bool = True):
     """Yield pyteomics spectrum dicts; errors become SpectrumFormatError."""
     from lxml import etree
     from pyteomics import mzml
@@ -46,7 +46,7 @@ def _spectra(data: bytes, source: str):
 
     _check(data, source)
     try:
-        reader = mzml.MzML(io.BytesIO(data), use_index=False, decode_binary=True,
+        reader = mzml.MzML(io.BytesIO(data), use_index=False, decode_binary=decode,
                            read_schema=False, huge_tree=False)
         with reader:
             yield from enumerate(reader)
@@ -68,11 +68,11 @@ def _spectra(data: bytes, source: str):
 def mzml_blocks(data: bytes, source: str = BYTES_SOURCE, **_: object) -> list[dict]:
     """List the spectra of an mzML file: index, id, title, MS level, centroid, points."""
     out = []
-    for k, spec in _spectra(data, source):
+    for k, spec in _spectra(data, source, decode=False):
         out.append({
             "index": k, "id": spec.get("id"), "title": spec.get("spectrum title", spec.get("id")),
             "ms_level": spec.get("ms level"), "centroid": "centroid spectrum" in spec,
-            "npoints": int(spec.get("defaultArrayLength", len(spec.get("m/z array", [])))),
+            "npoints": int(spec["defaultArrayLength"]) if "defaultArrayLength" in spec else None,
         })
     if not out:
         raise SpectrumFormatError("mzML holds no spectra", source)
