@@ -293,6 +293,34 @@ def _figure_for(t: str, session: Any, sticks: Sequence[tuple[float, float]]) -> 
                         reverse_x=t in ("nmr", "ir"), x_label=_x_label(t), title=title)
 
 
+def _observation_summary(t: str, o: Mapping[str, Any]) -> str:
+    """One line in words about an observation record."""
+    unit = _x_label(t)
+    parts: list[str] = []
+    if "positions" in o:
+        pos = o.get("positions") or []
+        word = "lines" if t == "nmr" else "bands"
+        shown = ", ".join(f"{p:.5g}" for p in pos[:40])
+        parts.append(f"{len(pos)} {word} counted" + (f" at {shown} {unit}" if pos else ""))
+        reg = o.get("region")
+        if reg:
+            parts.append(f"region {reg[0]:g}-{reg[1]:g} {unit}")
+    if t == "uvvis":
+        onset = o.get("onset_nm")
+        parts.append("no onset found" if onset is None else f"onset {onset:.0f} nm")
+        bands = o.get("bands_nm") or []
+        if bands:
+            parts.append("bands at " + ", ".join(f"{b:.0f}" for b in bands) + " nm")
+    if t == "mass":
+        return "see the mass step"
+    excl = o.get("excluded") or []
+    if excl:
+        parts.append("left out: " + "; ".join(
+            f"{e.get('position', 0):.5g} ({e.get('reason', '')})" for e in excl[:12])
+            + (f"; and {len(excl) - 12} more" if len(excl) > 12 else ""))
+    return "; ".join(parts) + "."
+
+
 def render_html(record: Mapping[str, Any], *, session: Any = None,
                 figures_html: Mapping[str, str] | None = None,
                 nmr_sticks: Sequence[tuple[float, float]] = ()) -> str:
@@ -360,6 +388,14 @@ def render_html(record: Mapping[str, Any], *, session: Any = None,
         items = "; ".join(f"{_NAMES.get(t, t)}: " + ", ".join(f"{k} = {v}" for k, v in v.items())
                           for t, v in set_th.items())
         out.append(f"<p class='note'>Thresholds changed from the defaults: {_e(items)}</p>")
+    obs = record.get("observations", {})
+    if obs:
+        out.append("<h2>What was observed</h2><ul>")
+        for t in TECHNIQUE_ORDER:
+            o = obs.get(t)
+            if o:
+                out.append(f"<li>{_NAMES[t]}: {_e(_observation_summary(t, o))}</li>")
+        out.append("</ul>")
     # figures
     figs: list[str] = []
     if session is not None:
