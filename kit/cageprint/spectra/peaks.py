@@ -288,11 +288,13 @@ def pick_peaks(
     # by much): candidates below HEIGHT_PREFILTER x the S/N (or min_height) level are counted
     floor = [v for v in ((snr or 0.0) * sigma * HEIGHT_PREFILTER if np.isfinite(sigma) else 0.0,
                          (min_height or 0.0) * HEIGHT_PREFILTER) if v > 0]
-    idx, props = find_peaks(ys, prominence=prom if prom > 0 else None,
-                            height=max(floor) if floor else None)
-    diag["below_height_prefilter"] = int(
-        find_peaks(ys, prominence=prom if prom > 0 else None)[0].size - idx.size
-    ) if floor else 0
+    idx, _ = find_peaks(ys, prominence=prom if prom > 0 else None)
+    if floor:
+        n_all = idx.size
+        idx = idx[ys[idx] >= max(floor)]
+        diag["below_height_prefilter"] = int(n_all - idx.size)
+    else:
+        diag["below_height_prefilter"] = 0
     if idx.size > MAX_CANDIDATES:
         raise SpectrumError(
             f"{idx.size} candidate maxima pass prominence={prom:.4g} and the height pre-filter "
@@ -317,17 +319,13 @@ def pick_peaks(
     apex = ys[idx]
     good = apex > 0
     wid = np.full(idx.size, np.nan)
-    lpos = np.full(idx.size, np.nan)
-    rpos = np.full(idx.size, np.nan)
+    wpts = np.array([])
     if good.any():
-        w, _, li, ri = peak_widths(
+        wpts, _, li, ri = peak_widths(
             ys, idx[good], rel_height=0.5, prominence_data=(apex[good], lb[good], rb[good])
         )
         ar = np.arange(n, dtype=float)
-        lpos[good] = np.interp(li, ar, x)
-        rpos[good] = np.interp(ri, ar, x)
-        wid[good] = rpos[good] - lpos[good]
-        wpts = w
+        wid[good] = np.interp(ri, ar, x) - np.interp(li, ar, x)
     positions, heights, widths, areas, snrs = [], [], [], [], []
     gi = 0
     for j, i in enumerate(idx):
