@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 
 from cageprint.errors import SpectrumFormatError
-from cageprint.spectra import MAX_POINTS, Spectrum, load_spectrum, write_jcamp
+from cageprint.spectra import MAX_POINTS, Spectrum, load_spectrum, write_jcamp, write_jcamp_link
 
 READERS_DIR = pathlib.Path(__file__).resolve().parents[1] / "kit" / "cageprint" / "spectra"
 
@@ -175,6 +175,11 @@ def _jcamp_cases():
            b"##FIRSTX=0\n##LASTX=10\n##NPOINTS=2\n##XYDATA=(X++(Y..Y))\n0 1 2\n##END=\n")
     cases.append(("nofreq.jdx", bad, r"nofreq.jdx, line 1: x is in Hz but the block has no "
                   r"##.OBSERVE FREQUENCY=; pass observe_mhz="))
+    link = write_jcamp_link([Spectrum([1.0, 2.0], [1.0, 2.0], technique="ir")] * 2,
+                            forms="AFFN")
+    bad = link.replace(b"##BLOCKS=2", b"##BLOCKS=3")
+    cases.append(("blocks.jdx", bad, r"blocks.jdx, line 4: LINK block 'cageprint link' "
+                  r"declares ##BLOCKS=3 but holds 2 data blocks"))
     return cases
 
 

@@ -61,7 +61,7 @@ class _Block:
     line: int
     labels: dict = field(default_factory=dict)  # label -> (value, line)
     data: tuple | None = None  # (label, form, line, [(lineno, text)])
-    children: int = 0
+    children: int = 0  # data blocks found before this block began (for ##BLOCKS=)
 
 
 def _strip_comment(line: str) -> str:
@@ -89,7 +89,7 @@ def _scan(text: str, source: str) -> list[_Block]:
             key = _norm_label(label)
             value = value.strip()
             if key == "TITLE":
-                stack.append(_Block(value, lineno))
+                stack.append(_Block(value, lineno, children=len(leaves)))
                 continue
             if not stack:
                 raise SpectrumFormatError(
@@ -102,8 +102,16 @@ def _scan(text: str, source: str) -> list[_Block]:
                 done = stack.pop()
                 if done.data is not None:
                     leaves.append(done)
-                elif _norm_label(done.labels.get("DATATYPE", ("", 0))[0]) != "LINK" and \
-                        "BLOCKS" not in done.labels:
+                elif "BLOCKS" in done.labels:
+                    value, bline = done.labels["BLOCKS"]
+                    held = len(leaves) - done.children
+                    if value.strip() != str(held):
+                        raise SpectrumFormatError(
+                            f"LINK block {done.title!r} declares ##BLOCKS={value.strip()} but "
+                            f"holds {held} data blocks",
+                            source, bline,
+                        )
+                elif _norm_label(done.labels.get("DATATYPE", ("", 0))[0]) != "LINK":
                     leaves.append(done)  # a block without data: reported when chosen
                 continue
             if key in _DATA_LABELS:
