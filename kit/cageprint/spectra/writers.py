@@ -156,7 +156,7 @@ def _header(s: Spectrum, title: str | None, extra: Sequence[tuple[str, str]] = (
 
 
 def _to_file(text: str, path) -> bytes:
-    data = text.encode("ascii", errors="replace")
+    data = text.encode("utf-8")  # ASCII for every JCAMP-DX label and table; UTF-8 titles
     if path is not None:
         p = Path(path)
         tmp = p.with_name(p.name + ".part")
