@@ -245,3 +245,13 @@ def test_xfactor_and_yfactor_hand_written():
     with pytest.raises(SpectrumFormatError, match=r"line 13: X-check failed: the line's X=800"):
         parse_jcamp(head + b"##FIRSTX=400\n##LASTX=404\n##NPOINTS=3\n##XYDATA=(X++(Y..Y))\n"
                     b"200 1 2\n400 3\n##END=\n")
+
+
+@pytest.mark.parametrize("form", FORMS)
+def test_abscissae_near_zero_are_written_without_exponents(form):
+    # in compressed lines E/e are SQZ characters (McDonald and Wilks 1988), so an X written
+    # as 1e-05 would be misread; ppm axes through 0 (TMS) produce such values
+    x = np.arange(-500, 500) * 1e-6
+    s = Spectrum(x, np.arange(1000) * 1.0, technique="nmr")
+    r = parse_jcamp(write_jcamp(s, form=form, yfactor=1.0))
+    assert np.array_equal(r.y, s.y) and np.allclose(r.x, x, atol=1e-12)

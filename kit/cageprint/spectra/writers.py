@@ -60,6 +60,11 @@ def _fmt(v: float) -> str:
     return r[:-2] if r.endswith(".0") else r
 
 
+def _fmt_x(v: float) -> str:
+    """An abscissa without exponent: in compressed lines E and e are SQZ characters."""
+    return np.format_float_positional(float(v), trim="-")
+
+
 def _ints(y: np.ndarray, yfactor: float) -> list[int]:
     q = np.rint(y / yfactor)
     if np.any(np.abs(q) > 2**53):
@@ -82,7 +87,7 @@ def _xydata_lines(x: np.ndarray, Y: list[int], form: str) -> list[str]:
     if form in ("AFFN", "PAC"):
         i = 0
         while i < n:
-            line = _fmt(x[i])
+            line = _fmt_x(x[i])
             j = i
             while j < n:
                 tok = (" " + str(Y[j])) if form == "AFFN" else (
@@ -97,7 +102,7 @@ def _xydata_lines(x: np.ndarray, Y: list[int], form: str) -> list[str]:
     if form == "SQZ":
         i = 0
         while i < n:
-            line = _fmt(x[i])
+            line = _fmt_x(x[i])
             j = i
             while j < n:
                 tok = _sqz(Y[j])
@@ -113,7 +118,7 @@ def _xydata_lines(x: np.ndarray, Y: list[int], form: str) -> list[str]:
     use_dup = form == "DUP"
     i = 0
     while True:
-        line = _fmt(x[i]) + _sqz(Y[i])
+        line = _fmt_x(x[i]) + _sqz(Y[i])
         j = i  # index of the last point on this line
         while j + 1 < n:
             d = Y[j + 1] - Y[j]
@@ -135,7 +140,7 @@ def _xydata_lines(x: np.ndarray, Y: list[int], form: str) -> list[str]:
             raise SpectrumError("a JCAMP-DX line cannot hold one value; x or y too long")
         if j + 1 >= n:
             if j > i:
-                lines.append(_fmt(x[j]) + _sqz(Y[j]))  # final Y-check line
+                lines.append(_fmt_x(x[j]) + _sqz(Y[j]))  # final Y-check line
             return lines
         i = j
 
@@ -244,7 +249,7 @@ def _block_lines(s: Spectrum, form: str, title: str | None, yfactor: float | Non
     if Y is None:  # plain AFFN with exact decimal ordinates
         lines, i = [], 0
         while i < n:
-            line, j = _fmt(x[i]), i
+            line, j = _fmt_x(x[i]), i
             while j < n and (len(line) + 1 + len(_fmt(y[j])) <= JCAMP_LINE_LENGTH or j == i):
                 line += " " + _fmt(y[j])
                 j += 1
