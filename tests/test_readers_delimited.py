@@ -186,3 +186,20 @@ def test_metadata_from_comment_and_header_lines():
     assert s.technique == "nmr" and np.allclose(s.x, [12500 / 125.7, 18750 / 125.7])
     assert s.meta["comments"][0] == "C60 fraction 3 (invented)"
     assert load_spectrum(data, observe_mhz=100.0).x.tolist() == [125.0, 187.5]
+
+
+@pytest.mark.parametrize(
+    "header, meaning",
+    [
+        (b"nm,Absorbance (AU)", "absorbance"),
+        (b"nm,Transmittance (%)", "percent transmittance"),
+        (b"nm,%T", "percent transmittance"),
+        (b"nm,Intensity (a.u.)", "intensity"),
+        (b"nm,signal (counts)", "intensity"),
+        (b"nm,Reflectance", "reflectance"),
+        (b"nm,y", "y"),
+    ],
+)
+def test_y_meaning_from_header(header, meaning):
+    # common practice, no source: how instrument exports label the ordinate
+    assert load_spectrum(header + b"\n300,1\n400,2\n").y_unit == meaning

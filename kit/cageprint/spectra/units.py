@@ -67,10 +67,14 @@ _Y_UNITS = {
     "%t": "percent transmittance", "%transmittance": "percent transmittance",
     "percenttransmittance": "percent transmittance", "transmittance(%)": "percent transmittance",
     "intensity": "intensity", "counts": "intensity", "arbitraryunits": "intensity",
-    "a.u.": "intensity", "au": "intensity", "arb.units": "intensity", "cps": "intensity",
+    "a.u.": "intensity", "arb.units": "intensity", "cps": "intensity",
     "relativeabundance": "intensity", "reflectance": "reflectance",
     "kubelka-munk": "kubelka-munk",
 }
+
+
+#: the y meanings the kit knows (AU is left out of the table: absorbance units or arbitrary?)
+Y_MEANINGS = frozenset(_Y_UNITS.values())
 
 
 def _key(text: str) -> str:

@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ...errors import SpectrumFormatError
-from ..units import normalise_y_unit
+from ..units import Y_MEANINGS, normalise_y_unit
 from ._common import (
     BYTES_SOURCE,
     MAX_POINTS,
@@ -401,6 +401,21 @@ def _guess(table: _Table, x_unit: str | None) -> tuple[str | None, str]:
     return guessed, why
 
 
+def _y_meaning(given: str | None, name: str, unit: str | None) -> str:
+    """y meaning from the caller, else the column name, else its unit ("Absorbance (AU)")."""
+    if given:
+        return normalise_y_unit(given)
+    n = normalise_y_unit(name) if name else None
+    u = (unit or "").strip()
+    if n == "transmittance" and u in ("%", "percent"):
+        return "percent transmittance"
+    if n in Y_MEANINGS:
+        return n
+    if u and normalise_y_unit(u) in Y_MEANINGS:
+        return normalise_y_unit(u)
+    return n or (normalise_y_unit(u) if u else "intensity")
+
+
 def _meta(table: _Table, data: bytes, source: str, fmt: str) -> dict:
     m = {
         "source": source,
@@ -478,7 +493,7 @@ def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str |
     guessed, why = _guess(table, xu)
     tech = resolve_technique(technique, guessed, False, source, why)
     yname, yunit = _units_of(table, table.idx["y"])
-    yu = normalise_y_unit(y_unit or yunit or yname or "intensity")
+    yu = _y_meaning(y_unit, yname, yunit)
     m = _meta(table, data, source, "delimited")
     m.update(meta or {})
     if observe_mhz is not None:
@@ -523,7 +538,7 @@ def parse_peaklist(data: bytes, source: str = BYTES_SOURCE, *, technique: str | 
     guessed, why = _guess(table, xu)
     tech = resolve_technique(technique, guessed, False, source, why)
     yname, yunit = _units_of(table, table.idx["y"])
-    yu = normalise_y_unit(y_unit or yunit or yname or "intensity")
+    yu = _y_meaning(y_unit, yname, yunit)
     m = _meta(table, data, source, "peaklist")
     m.update(meta or {})
     if observe_mhz is not None:
