@@ -131,9 +131,10 @@ def test_independent_reader_peak_table(tmp_path):
     assert r["y"].tolist() == [1.0, 0.45, 0.3, 0.35]
 
 
-def test_nmr_in_hz_with_observe_frequency_and_nmrglue_oracle(tmp_path):
+@pytest.mark.parametrize("form", FORMS)
+def test_nmr_in_hz_with_observe_frequency_and_nmrglue_oracle(tmp_path, form):
     s = _nmr()
-    data = write_jcamp(s, form="DUP", yfactor=1.0, x_unit="Hz")
+    data = write_jcamp(s, form=form, yfactor=1.0, x_unit="Hz")
     assert b"##XUNITS=HZ" in data and b"##.OBSERVE FREQUENCY=125.7" in data
     r = parse_jcamp(data)
     # ppm = Hz / MHz (definition of the delta scale; common practice, no source)
