@@ -230,3 +230,11 @@ def test_plain_neighbour_table_and_cage_share_the_analysis():
     b = fingerprint(cage.neighbours.tolist())
     assert b.spiral is None and a.spiral == tuple(cage.spiral)
     assert a.nmr is b.nmr and a.vib is b.vib
+
+
+def test_isomers_can_share_an_nmr_pattern():
+    # ../shared notes (facts found on this machine): several isomers of one formula can share
+    # an orbit pattern exactly; C84 isomers 6 and 7 (both C2v) give 19x4+4x2
+    a, b = predict_nmr(ipr(84, 6)), predict_nmr(ipr(84, 7))
+    assert (a.point_group, a.pattern) == (b.point_group, b.pattern) == ("C2v", "19x4+4x2")
+    assert ipr(84, 6).canonical_spiral != ipr(84, 7).canonical_spiral
