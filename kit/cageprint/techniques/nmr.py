@@ -264,19 +264,19 @@ def observe_nmr(
         pos, area, s_n = pos[keep], area[keep], s_n[keep]
     else:
         pos, area, s_n, noise = _pick_profile(spectrum, snr, prominence,
-                                              integration_halfwidth, (lo, hi))
+                                              integration_halfwidth)
         diagnostics["noise"] = noise
         excluded = []
     lines_p, lines_a, lines_s = [], [], []
     for p, a, s in zip(pos, area, s_n, strict=False):
-        if not lo <= p <= hi:
-            excluded.append({"position": float(p),
-                             "reason": f"outside the cage region {lo:g}-{hi:g} ppm"})
-            continue
         near = [r for r in refs if abs(r - p) <= reference_tol]
         if near:
             excluded.append({"position": float(p),
                              "reason": f"reference/solvent line at {near[0]:g} ppm"})
+            continue
+        if not lo <= p <= hi:
+            excluded.append({"position": float(p),
+                             "reason": f"outside the cage region {lo:g}-{hi:g} ppm"})
             continue
         lines_p.append(float(p))
         lines_a.append(float(a))
@@ -292,17 +292,15 @@ def observe_nmr(
     )
 
 
-def _pick_profile(spectrum, snr, prominence, halfwidth, region):
-    """Peaks of a profile (:func:`cageprint.spectra.pick_peaks`) and their integrals."""
+def _pick_profile(spectrum, snr, prominence, halfwidth):
+    """Peaks of a profile (:func:`cageprint.spectra.pick_peaks`) and their integrals.
+
+    The whole trace is searched (lines outside the region are then listed as
+    left out); integrals are taken after the same baseline correction.
+    """
     from ..spectra import integrate, pick_peaks
 
-    lo, hi = region
-    pad = 5.0 * halfwidth + 1.0
-    x = spectrum.x
-    window = (max(float(x.min()), lo - pad), min(float(x.max()), hi + pad))
-    if window[1] <= window[0]:
-        return np.array([]), np.array([]), np.array([]), None
-    peaks = pick_peaks(spectrum, snr=snr, prominence=prominence, region=window)
+    peaks = pick_peaks(spectrum, snr=snr, prominence=prominence)
     if len(peaks) == 0:
         return np.array([]), np.array([]), np.array([]), peaks.diagnostics.get("noise")
     ints = integrate(spectrum, peaks, half_width=halfwidth, baseline="arpls")
