@@ -323,3 +323,12 @@ def test_numpy_fallback_finds_the_same_automorphisms(monkeypatch):
         b = automorphisms(c.neighbours)
         assert as_set(a) == as_set(b)
         assert (b.perms[0] == np.arange(c.n)).all()
+
+
+def test_no_faithful_embedding_names_the_setting_to_change():
+    from cageprint.symmetry.geometry import topological_embedding
+
+    nb = Cage.from_spiral(60, C60_IH).neighbours
+    with pytest.raises(SymmetryError, match=r"no choice of adjacency eigenspaces among the top 0 "
+                                            r"realises all 120 automorphisms.*max_levels"):
+        topological_embedding(nb, max_levels=0)
