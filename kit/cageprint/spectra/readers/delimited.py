@@ -162,17 +162,20 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     import pandas as pd  # slow to import: only when a table is read
 
     encoding = opts.pop("encoding", None)
-    text = decode_text(data, source, encoding)
     utf8 = (str(encoding or "utf-8").lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig")
             and not data.startswith((b"\xff\xfe", b"\xfe\xff")))
     max_points = opts.get("max_points", MAX_POINTS)
-    nlines = text.count("\n")
+    # refuse oversized input from the byte count alone, before decoding anything
+    utf16 = data.startswith((b"\xff\xfe", b"\xfe\xff"))
+    nlines = data.count(b"\n\x00" if data.startswith(b"\xff\xfe") else b"\x00\n") if utf16 \
+        else data.count(b"\n")
     if nlines > max_points + _LINE_ALLOWANCE:
         raise SpectrumFormatError(
             f"about {nlines} lines is more than MAX_POINTS={max_points}; crop or decimate the "
             "file, or pass max_points=",
             source,
         )
+    text = decode_text(data, source, encoding)
     mac_endings = "\n" not in text and "\r" in text
     if mac_endings:
         text = text.replace("\r", "\n")

@@ -12,6 +12,7 @@ data", Mol. Cell. Proteomics 10, R110.000133 (2011).
 
 from __future__ import annotations
 
+import functools
 import io
 import re
 import zlib
@@ -38,6 +39,16 @@ def _check(data: bytes, source: str) -> None:
         )
 
 
+@functools.cache
+def _vocabulary():
+    """The PSI-MS controlled vocabulary, loaded once (pyteomics would load it per file)."""
+    try:
+        from pyteomics.auxiliary.psims_util import _has_psims, load_psims
+    except ImportError:  # pragma: no cover - older pyteomics parse without it
+        return None
+    return load_psims() if _has_psims else None
+
+
 def _spectra(data: bytes, source: str, decode: bool = True):
     """Yield pyteomics spectrum dicts; errors become SpectrumFormatError."""
     from lxml import etree
@@ -45,9 +56,11 @@ def _spectra(data: bytes, source: str, decode: bool = True):
     from pyteomics.auxiliary import PyteomicsError
 
     _check(data, source)
+    cv = _vocabulary()
     try:
+        kwargs = {"cv": cv} if cv is not None else {}
         reader = mzml.MzML(io.BytesIO(data), use_index=False, decode_binary=decode,
-                           read_schema=False, huge_tree=False)
+                           read_schema=False, huge_tree=False, **kwargs)
         with reader:
             yield from enumerate(reader)
     except etree.XMLSyntaxError as exc:
@@ -55,9 +68,16 @@ def _spectra(data: bytes, source: str, decode: bool = True):
         raise SpectrumFormatError(f"not well-formed mzML XML: {exc.msg}", source, line) from None
     except SpectrumFormatError:
         raise
+    except PyteomicsError as exc:
+        if "psims" in str(exc):
+            raise SpectrumFormatError(
+                "reading mzML needs the psims package (pip install psims); " + str(exc), source
+            ) from None
+        raise SpectrumFormatError(f"unreadable mzML (PyteomicsError: {str(exc)[:120]})",
+                                  source) from None
     except MemoryError:
         raise
-    except (PyteomicsError, zlib.error, Exception) as exc:  # noqa: BLE001 - any library failure
+    except (zlib.error, Exception) as exc:  # noqa: BLE001 - any library failure
         # a corrupt file can fail anywhere inside the XML, base64 or zlib layers of the library;
         # all of it is reported as one readable error naming the file
         raise SpectrumFormatError(
