@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import functools
 import math
+import re
 
 import numpy as np
 import pytest
@@ -145,3 +146,40 @@ def test_levels_spanning_the_embedding_carry_the_irreps_of_xyz(n, isomer):
     labels = [el.levels[k][2] for k in cs.embedding.levels]
     parts = sorted(p for lab in labels for p in lab.split("+"))
     assert parts == sorted(cs.table.linear)
+
+
+@pytest.mark.skipif(__import__("platform").machine() != "x86_64",
+                    reason="libmsym ships x86_64 wheels only")
+@pytest.mark.parametrize("n, isomer", [(60, 1), (70, 1), (84, 23)])
+def test_level_irreps_agree_with_libmsym(n, isomer):
+    # independent oracle (test dependency): libmsym symmetrises the Hückel eigenvectors over
+    # s functions on our model geometry and names each orbital's species (E1 for E)
+    from collections import Counter
+
+    from cageprint.symmetry import cage_symmetry, symmetric_geometry
+
+    msym = pytest.importorskip("libmsym")
+    cage = ipr(n, isomer)
+    cs = cage_symmetry(cage)
+    _, vec = cs.spectrum
+    el = predict_electronic(cage)
+    x = symmetric_geometry(cage).coords
+    els = [msym.Element(name="C", coordinates=[float(v) for v in p]) for p in x]
+    bfs = [msym.RealSphericalHarmonic(element=e, n=2, l=0, m=0, name="s") for e in els]
+    with msym.Context(elements=els, basis_functions=bfs) as ctx:
+        ctx.find_symmetry()
+        species = ctx.symmetrize_wavefunctions(vec.T)[1]
+        names = [s.name for s in ctx.character_table.symmetry_species]
+    dims = dict(zip(cs.table.irreps, cs.table.dims, strict=True))
+    start = 0
+    for _, deg, label, _ in el.levels:
+        theirs = Counter()
+        for k in species[start:start + deg]:
+            name = names[int(k)]
+            theirs[name if name in dims else name.replace("E1", "E")] += 1
+        ours = Counter()
+        for part in label.split("+"):
+            digits, irrep = re.fullmatch(r"(\d*)(\D.*)", part).groups()
+            ours[irrep] += int(digits or 1) * dims[irrep]
+        assert theirs == ours, (label, dict(theirs))
+        start += deg
