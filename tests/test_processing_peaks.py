@@ -57,6 +57,7 @@ def _ir_case(seed: int, baseline: str):
 @pytest.mark.parametrize("baseline", ["flat", "sloped", "curved"])
 @pytest.mark.parametrize("seed", range(6))
 def test_true_lines_found_and_no_false_ones(seed, baseline):
+    # stated thresholds in the module docstring; synthetic truth (common practice, no source)
     s, centres, snr_true, _ = _ir_case(seed, baseline)
     p = pick_peaks(s, snr=5.0)
     d = np.abs(p.positions[:, None] - centres[None, :])
@@ -102,6 +103,7 @@ def test_gaussian_lines_exact_with_log_parabola():
 
 
 def test_diagnostics_and_rejections():
+    # common practice, no source: a result says which thresholds it used and what it dropped
     s, _, _, _ = _ir_case(1, "sloped")
     p = pick_peaks(s, snr=PEAK_SNR)
     d = p.diagnostics
@@ -129,6 +131,7 @@ def test_region_and_min_height_and_prominence():
 
 
 def test_min_separation_merges_close_lines():
+    # common practice, no source: lines closer than the resolution count as one
     x = np.arange(0.0, 100.0, 0.05)
     y = lorentz(x, 50.0, 1.0, 0.5) + lorentz(x, 51.0, 0.5, 0.5) + lorentz(x, 80.0, 1.0, 0.5)
     s = Spectrum(x, y, technique="nmr")
@@ -143,6 +146,7 @@ def test_min_separation_merges_close_lines():
 
 
 def test_peak_list_spectra_are_filtered_not_fitted():
+    # common practice, no source: centroided intensities add when merged
     s = Spectrum([720.0, 721.0, 722.0, 840.0, 900.0], [100, 65, 21, 30, 0.5], technique="mass",
                  kind="peaks")
     p = pick_peaks(s, min_height=1.0)
@@ -198,6 +202,7 @@ def _nmr(seed=0, baseline=True):
 
 @pytest.mark.parametrize("seed", range(4))
 def test_integral_ratios_within_5_percent(seed):
+    # NMR integrals are proportional to the number of nuclei (common practice, no source)
     s, lines = _nmr(seed)
     flat, _ = remove_baseline(s)
     p = pick_peaks(flat, baseline=None, snr=5)
@@ -275,6 +280,7 @@ def test_noise_region():
 
 @pytest.mark.parametrize("method", ["arpls", "imodpoly", "snip"])
 def test_baseline_recovered_away_from_lines(method):
+    # arPLS: Baek et al., Analyst 140, 250 (2015); methods as implemented by pybaselines
     s, centres, _, base = _ir_case(4, "curved")
     params = {"poly_order": 3} if method == "imodpoly" else (
         {"max_half_window": 40} if method == "snip" else {})

@@ -78,6 +78,7 @@ def test_units_convert_to_kit_units():
 
 
 def test_technique_guessing():
+    # common practice, no source: the axis unit names the technique (m/z, ppm, nm, Raman shift)
     assert load_spectrum(b"m/z,intensity\n1,2\n2,3\n").technique == "mass"
     assert load_spectrum(b"ppm,intensity\n1,2\n2,3\n").technique == "nmr"
     assert load_spectrum(b"wavelength,abs\n300,2\n400,3\n").technique == "uvvis"
@@ -103,6 +104,7 @@ def test_unknown_column_name():
 
 
 def test_peaklist_any_order_with_widths():
+    # common practice, no source: a peak table is position, intensity[, width]
     s = parse_peaklist(b"m/z intensity width\n840.0 30 0.1\n720.0 100 0.1\n")
     assert s.kind == "peaks" and s.technique == "mass"
     assert s.x.tolist() == [720.0, 840.0]

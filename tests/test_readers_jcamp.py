@@ -72,6 +72,7 @@ def _jcamp_oracle(tmp_path, data: bytes, name="o.jdx"):
 
 @pytest.mark.parametrize("form", FORMS)
 def test_xydata_forms_round_trip_exactly(form):
+    # JCAMP-DX 4.24 forms (McDonald and Wilks 1988); 5.01 header; 80-character lines
     s = _ir()
     data = write_jcamp(s, form=form, yfactor=YF)
     r = parse_jcamp(data)
@@ -84,6 +85,7 @@ def test_xydata_forms_round_trip_exactly(form):
 
 @pytest.mark.parametrize("form", FORMS)
 def test_descending_x_files(form):
+    # FIRSTX > LASTX is allowed (McDonald and Wilks 1988); IR files are often written so
     s = _ir(seed=1)
     r = parse_jcamp(write_jcamp(s, form=form, yfactor=YF, descending=True))
     assert np.array_equal(r.y, s.y)
@@ -99,6 +101,7 @@ def test_affn_without_yfactor_is_exact_for_any_floats():
 
 
 def test_xypoints_and_peak_table_round_trip():
+    # (XY..XY) and (XYW..XYW) tables (McDonald and Wilks 1988)
     x = np.sort(np.random.default_rng(2).uniform(400, 1600, 50))
     s = Spectrum(x, np.arange(50) * 0.5, technique="raman")
     r = parse_jcamp(write_jcamp(s, form="XYPOINTS"))
@@ -189,6 +192,7 @@ def test_hand_written_asdf_tokens():
 
 
 def test_link_file_blocks_and_choice(tmp_path):
+    # LINK files: ##DATA TYPE=LINK, ##BLOCKS=, ##BLOCK_ID= (JCAMP-DX 5; from memory)
     a = _ir(seed=7)
     b = Spectrum(list(C60_IR), [1.0, 0.5, 0.3, 0.4], technique="ir", kind="peaks")
     data = write_jcamp_link([a, b], forms=["DIF", None], titles=["profile", "peaks"],
@@ -214,6 +218,7 @@ def test_link_file_blocks_and_choice(tmp_path):
 
 
 def test_technique_from_data_type_and_conflict():
+    # ##DATA TYPE= names the technique (McDonald and Wilks 1988)
     data = write_jcamp(_ir(), form="SQZ", yfactor=YF)
     assert load_spectrum(data).technique == "ir"
     with pytest.raises(SpectrumFormatError, match=r"declares a ir spectrum .*##DATA TYPE="
