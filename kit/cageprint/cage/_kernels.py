@@ -326,6 +326,9 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
     return True
 
 
+#: rims with fewer faces left than this are not remembered (cheap to redo)
+MEMO_MIN_LEFT = 4
+
 #: faces allowed beyond the layer estimate in :func:`cap_table`
 CAP_SLACK = 3
 
@@ -350,9 +353,15 @@ def cap_table(nf, slack):
     return cap
 
 
-def new_search_state(n):
+#: most slots of the table of rims known to lead nowhere (16 bytes each: 32 MiB)
+MEMO_SLOTS = 1 << 21
+
+
+def new_search_state(n, memo_slots=None):
     """Arrays holding a resumable depth-first search over spirals of C``n``."""
     nf = n // 2 + 2
+    if memo_slots is None:  # small searches need small tables
+        memo_slots = min(MEMO_SLOTS, 1 << max(10, n // 5 + 6))
     st = {
         "size": np.zeros(nf, np.int64),
         "deg": np.zeros(nf, np.int64),
@@ -363,11 +372,44 @@ def new_search_state(n):
         "nxt": -np.ones((nf, nf), np.int64),
         "psave": np.zeros((nf + 1, 6), np.int64),
         "tried": np.zeros(nf + 1, np.int64),
-        # [k, pentagons placed, started, nodes visited, complete windups]
-        "ctl": np.zeros(5, np.int64),
+        # [k, pentagons placed, started, nodes visited, complete windups, dead rims met]
+        "ctl": np.zeros(6, np.int64),
         "cap": cap_table(nf, CAP_SLACK),
+        "entry": np.zeros(nf + 1, np.int64),
+        "memo": np.zeros((memo_slots, 2), np.uint64),
+        "zob": _zobrist(nf),
     }
     return st
+
+
+def _zobrist(nf):
+    # fixed pseudo-random words for hashing rims (seeded: runs are reproducible)
+    rng = np.random.default_rng(20261201)
+    return rng.integers(1, 2**63 - 1, size=(2, nf + 2, 16), dtype=np.int64).astype(np.uint64)
+
+
+@njit(cache=True)
+def _rim_hash(k, npent, size, deg, bnd, ptr, zob, key):
+    """Two 64-bit hashes of what decides the rest of a windup.
+
+    What follows a partial spiral depends only on the depth, the pentagons
+    used and, along the rim from its oldest face, each face's free edges and
+    whether it is a pentagon; the faces inside do not matter.
+    """
+    h = ptr[0]
+    t = ptr[1]
+    a = np.uint64(k * 64 + npent + 1) * np.uint64(0x9E3779B97F4A7C15)
+    b = np.uint64((t - h) * 131 + k) * np.uint64(0xC2B2AE3D27D4EB4F)
+    for i in range(h, t):
+        f = bnd[i]
+        code = size[f] - deg[f] + (8 if size[f] == 5 else 0)
+        j = i - h
+        a = (a ^ zob[0, j, code]) * np.uint64(0xBF58476D1CE4E5B9)
+        a = a ^ (a >> np.uint64(29))
+        b = (b ^ zob[1, j, code]) * np.uint64(0x94D049BB133111EB)
+        b = b ^ (b >> np.uint64(31))
+    key[0] = a | np.uint64(1)
+    key[1] = b
 
 
 @njit(cache=True)
@@ -380,8 +422,8 @@ def _undo(k, deg, nbr, bnd, ptr, psave):
 
 
 @njit(cache=True)
-def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, ipr, fused_rule, out,
-           max_out):
+def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, entry, memo, zob, ipr,
+           fused_rule, out, max_out):
     """Resumable depth-first search for canonical spirals in lexicographic order.
 
     Face 0 is always a pentagon (a canonical spiral starts at one).  At each
@@ -396,6 +438,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, ipr, fuse
     cnt = np.zeros(nf, np.int64)
     ubnd = np.zeros(nf + 1, np.int64)
     uout = np.zeros(nf, np.int64)
+    key = np.zeros(2, np.uint64)
+    mask = memo.shape[0] - 1
     if ctl[2] == 0:
         ctl[2] = 1
         size[0] = 5
@@ -403,10 +447,12 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, ipr, fuse
         ctl[0] = 1
         ctl[1] = 1
         tried[1] = 0
+        entry[1] = 0
     k = ctl[0]
     npent = ctl[1]
     nodes = ctl[3]
     windups = ctl[4]
+    hits = ctl[5]
     while k >= 1:
         if k == nf:
             # a complete spiral: keep it if no pentagon start gives a smaller one
@@ -427,7 +473,20 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, ipr, fuse
                 break
             continue
         tk = tried[k]
+        if tk == 0 and nf - k >= MEMO_MIN_LEFT:
+            _rim_hash(k, npent, size, deg, bnd, ptr, zob, key)
+            slot = np.int64(key[1] & np.uint64(mask))
+            if memo[slot, 0] == key[0] and memo[slot, 1] == key[1]:
+                hits += 1
+                tk = 2
+                entry[k] = -1
         if tk == 2:
+            # remember a rim whose whole subtree held no complete windup
+            if entry[k] >= 0 and entry[k] == windups and nf - k >= MEMO_MIN_LEFT:
+                _rim_hash(k, npent, size, deg, bnd, ptr, zob, key)
+                slot = np.int64(key[1] & np.uint64(mask))
+                memo[slot, 0] = key[0]
+                memo[slot, 1] = key[1]
             k -= 1
             if k >= 1:
                 _undo(k, deg, nbr, bnd, ptr, psave)
@@ -456,16 +515,24 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, ipr, fuse
         # a rim of m faces with q < 6 pentagons left can only enclose so many
         # faces; and a face shortens the rim by at most 2 (a pentagon by 1)
         # while the last face needs a rim of its own size
+        # (with isolated pentagons, no two pentagons follow each other either,
+        # since consecutive faces of a spiral touch)
         m = ptr[1] - ptr[0]
-        if k < nf - 1 and ((q < 6 and left > cap[q, m]) or m + q - 2 * (left - 1) > 6):
+        if k < nf - 1 and (
+            (q < 6 and left > cap[q, m])
+            or m + q - 2 * (left - 1) > 6
+            or (rule == 1 and q > 0 and left < 2 * q - (0 if s == 5 else 1))
+        ):
             _undo(k, deg, nbr, bnd, ptr, psave)
             continue
         npent = np_after
         k += 1
         if k < nf:
             tried[k] = 0
+            entry[k] = windups
     ctl[0] = k
     ctl[1] = npent
     ctl[3] = nodes
     ctl[4] = windups
+    ctl[5] = hits
     return nout, k < 1

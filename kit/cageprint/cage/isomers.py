@@ -76,7 +76,8 @@ def iter_spirals(n: int, ipr: bool = False, fused_rule: bool | None = None
         out = np.zeros((size, 12), np.int64)
         found, done = K.search(
             st["size"], st["deg"], st["nbr"], st["bnd"], st["ptr"], st["tri"], st["nxt"],
-            st["psave"], st["tried"], st["ctl"], st["cap"], bool(ipr), rule,
+            st["psave"], st["tried"], st["ctl"], st["cap"], st["entry"], st["memo"], st["zob"],
+            bool(ipr), rule,
             out, size,
         )
         if found:
@@ -186,17 +187,36 @@ def isomer_number(n: int, spiral, ipr: bool | None = None) -> int:
     return _rank(cage.n, cage.canonical_spiral, bool(ipr))
 
 
-@lru_cache(maxsize=4096)
+class _Ranks:
+    """Canonical spirals of one (n, ipr) list found so far, and the search to continue it."""
+
+    def __init__(self, n: int, ipr: bool):
+        self.n = n
+        self.ipr = ipr
+        self.rank: dict[tuple[int, ...], int] = {}
+        self.last: tuple[int, ...] = ()
+        self._batches = iter_spirals(n, ipr)
+
+    def __call__(self, canon: tuple[int, ...]) -> int:
+        while canon not in self.rank and canon > self.last:
+            batch = next(self._batches, None)
+            if batch is None:
+                break
+            for row in batch.tolist():
+                self.rank[tuple(row)] = len(self.rank) + 1
+            self.last = tuple(batch[-1].tolist())
+        if canon in self.rank:
+            return self.rank[canon]
+        raise CageError(  # pragma: no cover - would mean the search missed a cage
+            f"C{self.n} spiral {' '.join(map(str, canon))} was not found by the isomer search"
+        )
+
+
+@lru_cache(maxsize=4)
+def _ranks(n: int, ipr: bool) -> _Ranks:
+    # kept between calls, so numbering many cages of one formula searches once
+    return _Ranks(n, ipr)
+
+
 def _rank(n: int, canon: tuple[int, ...], ipr: bool) -> int:
-    target = np.asarray(canon, np.int64)
-    rank = 0
-    for batch in iter_spirals(n, ipr):
-        hit = np.flatnonzero((batch == target).all(axis=1))
-        if hit.size:
-            return rank + int(hit[0]) + 1
-        rank += len(batch)
-        if tuple(batch[-1].tolist()) > canon:
-            break
-    raise CageError(  # pragma: no cover - would mean the search missed a cage
-        f"C{n} spiral {' '.join(map(str, canon))} was not found by the isomer search"
-    )
+    return _ranks(n, ipr)(canon)
