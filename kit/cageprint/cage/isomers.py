@@ -12,16 +12,24 @@ Kept spirals therefore come out in increasing lexicographic order, which is
 the order that defines isomer numbers (IPR isomers are numbered among IPR
 isomers).
 
-Two bounds prune partial spirals without losing any cage: a face shortens the
-rim by at most two faces (a pentagon by one) and the last face needs a rim of
-its own size; and a rim with fewer than six pentagons left can enclose only
-so many faces (:func:`cageprint.cage._kernels.cap_table`).  One rule comes
-from canonicity (:data:`FUSED_START_RULE`): when the second face is a
-hexagon, no two pentagons may touch, because a spiral starting at two
-touching pentagons would read 5 5 ... and be smaller.  This assumes such a
-spiral closes for at least one of the four starts at each touching pair;
-the all-isomer counts it gives agree with the published ones (checked for
-every even n from 20 to 70 in the tests).  IPR lists do not depend on it.
+Partial spirals are also cut by bounds on the rim: a face shortens the rim
+by at most two faces (a pentagon by one) and the last face needs a rim of its
+own size (exact); with isolated pentagons no two pentagons follow each other
+(exact); and a rim with fewer than six pentagons left can enclose only so
+many faces (a layer estimate from Gauss-Bonnet with a safety margin,
+:func:`cageprint.cage._kernels.cap_table`).  What follows a partial spiral
+depends only on its depth, the pentagons used and the rim, so a rim whose
+whole subtree held no complete spiral is remembered (by a 128-bit hash) and
+skipped when met again.
+
+One rule comes from canonicity (:data:`FUSED_START_RULE`): when the second
+face is a hexagon, no two pentagons may touch, because a spiral starting at
+two touching pentagons would read 5 5 ... and be smaller.  This assumes such
+a spiral closes for at least one of the four starts at each touching pair.
+IPR lists do not depend on it.  Checks in the test suite: the all-isomer
+counts agree with the published ones for every even n from 20 to 60 and for
+70, the IPR counts for every even n from 60 to 100, and the search with and
+without the rule gives the same spirals up to C50.
 
 References
 ----------
