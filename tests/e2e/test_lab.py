@@ -97,7 +97,7 @@ def lab(tmp_path_factory):
                 pytest.fail("JupyterLab did not start; log:\n"
                             + (base / "server.log").read_text(errors="replace")[-3000:])
             time.sleep(0.5)
-    yield {"url": url, "token": token}
+    yield {"url": url, "token": token, "root": work}
     proc.terminate()
     try:
         proc.wait(timeout=20)
@@ -149,5 +149,52 @@ def test_threshold_change_updates_the_comparison_table(lab):
         except Exception:
             page.screenshot(path=str(shots / "e2e-lab-failure.png"), full_page=True)
             raise
+        finally:
+            ctx.close()
+
+
+def test_executed_copy_shows_figures_without_kernel_or_internet(lab, tmp_path):
+    """The shared products: the executed copy in Lab and the HTML export offline."""
+    from playwright.sync_api import expect, sync_playwright
+
+    from cageprint.cli.notebooks import run_notebook
+
+    shots = ROOT / "test-artifacts"
+    shots.mkdir(exist_ok=True)
+    res = run_notebook(lab["root"] / NOTEBOOK, tmp_path)
+    shared = lab["root"] / "shared-copy.ipynb"
+    shutil.copy(res.notebook, shared)
+    with sync_playwright() as p:
+        ctx = p.chromium.launch_persistent_context(
+            tempfile.mkdtemp(prefix="cp-chromium-"), executable_path=_chromium(), headless=True,
+            viewport={"width": 1400, "height": 1100}, args=CHROMIUM_ARGS)
+        try:
+            # 1. the HTML export, opened from disk with every network request refused
+            page = ctx.new_page()
+            errors: list[str] = []
+            page.on("pageerror", lambda e: errors.append(str(e)))
+            page.route("http*://**", lambda route: route.abort())
+            page.goto(res.html.as_uri())
+            plots = page.locator(".js-plotly-plot .main-svg")
+            expect(plots.first).to_be_visible(timeout=30_000)
+            assert page.locator("table.cp-table").count() >= 1
+            assert not [e for e in errors if "Plotly" in e], errors
+            page.screenshot(path=str(shots / "e2e-html-offline.png"))
+            page.close()
+            # 2. the executed copy in JupyterLab, figures drawn from the saved outputs
+            page = ctx.new_page()
+            ws = f"e2e-{secrets.token_hex(4)}"
+            page.goto(f"{lab['url']}/lab/workspaces/{ws}/tree/shared-copy.ipynb?reset"
+                      f"&token={lab['token']}")
+            panel = page.locator(".jp-NotebookPanel:not(.lm-mod-hidden)")
+            panel.locator(".jp-Cell").first.wait_for(timeout=60_000)
+            static = panel.locator(".js-plotly-plot").first
+            static.wait_for(state="attached", timeout=60_000)
+            static.scroll_into_view_if_needed(timeout=30_000)
+            expect(static.locator(".main-svg").first).to_be_visible(timeout=30_000)
+            # untrusted HTML loses classes and data attributes to the sanitiser: find it by text
+            expect(panel.locator("table", has_text="rank 1: C76 1").first).to_be_attached(
+                timeout=30_000)
+            page.screenshot(path=str(shots / "e2e-lab-executed-copy.png"))
         finally:
             ctx.close()
