@@ -136,6 +136,21 @@ def test_malformed_file_shows_error_and_keeps_previous_spectrum(tmp_path):
     np.testing.assert_array_equal(np.array(loader.fig.data[0].y), y_before)
 
 
+def test_panel_follows_a_spectrum_loaded_later(session, tmp_path):
+    panel_spectrum = session.spectra["nmr"]
+    x = np.linspace(125.0, 160.0, 14001)
+    y = sum(0.015**2 / ((x - c) ** 2 + 0.015**2) for c in (140.0, 150.0)) \
+        + np.random.default_rng(1).normal(0, 0.01, x.size)
+    (tmp_path / "two.csv").write_text("ppm,intensity\n" + "".join(
+        f"{a:.4f},{b:.6f}\n" for a, b in zip(x, y, strict=True)))
+    loader = SpectrumLoader(session, folder=tmp_path, technique="nmr")
+    panel = ComparisonPanel(session, "nmr", loader=loader)
+    assert panel.spectrum is panel_spectrum and _observed(panel) == 22
+    loader.file.value = "two.csv"
+    assert panel.spectrum is session.spectra["nmr"] is loader.spectrum
+    assert _observed(panel) == 2 and len(panel.fig.data[0].x) == x.size
+
+
 def test_correcting_the_technique_rereads_the_file(tmp_path):
     _write_ir_csv(tmp_path / "band.csv")
     s = Session()

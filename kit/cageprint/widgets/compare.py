@@ -48,9 +48,12 @@ class ComparisonPanel:
         ``"nmr"``, ``"ir"``, ``"raman"`` or ``"uvvis"``; its spectrum must be loaded.
     chosen : sequence of int, optional
         Isomer numbers to compare (default: the first five of the ranking).
+    loader : SpectrumLoader, optional
+        When given, a spectrum it loads for this technique replaces the panel's.
     """
 
-    def __init__(self, session, technique: str, chosen: Sequence[int] | None = None):
+    def __init__(self, session, technique: str, chosen: Sequence[int] | None = None,
+                 loader=None):
         self.session = session
         self.technique = technique
         self.problem = Problem("cp-compare-error")
@@ -109,6 +112,20 @@ class ComparisonPanel:
                           self.problem.widget, self.table, boxed(self.fig)])
         self.ui.add_class("cp-compare")
         self.observation = None
+        if loader is not None:
+            loader.on_loaded(self._new_spectrum)
+        self.update()
+
+    def _new_spectrum(self, spectrum) -> None:
+        """Show a newly loaded spectrum of this technique (others are ignored)."""
+        if spectrum.technique != self.technique:
+            return
+        self.spectrum = spectrum
+        lo, hi = float(spectrum.x.min()), float(spectrum.x.max())
+        with self.region.hold_trait_notifications():
+            self.region.min, self.region.max = min(lo, self.region.min), max(hi, self.region.max)
+        with self.fig.batch_update():
+            self.fig.data[0].x, self.fig.data[0].y = spectrum.x, spectrum.y
         self.update()
 
     # -- state ---------------------------------------------------------------

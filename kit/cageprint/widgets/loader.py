@@ -38,14 +38,17 @@ class SpectrumLoader:
         Preselect a technique instead of taking it from the file.
     initial : str, optional
         File (name in ``folder``) to load at once.
+    plot : bool
+        Show the loader's own plot (leave it out when a comparison panel shows the spectrum).
     """
 
     def __init__(self, session, folder: str | os.PathLike = ".", technique: str | None = None,
-                 initial: str | None = None):
+                 initial: str | None = None, plot: bool = True):
         self.session = session
         self.folder = pathlib.Path(folder)
         self.spectrum = None
         self.source: str | None = None
+        self._listeners: list = []
         files = sorted(p.name for p in self.folder.iterdir()
                        if p.is_file() and p.suffix.lower() in SPECTRUM_SUFFIXES) \
             if self.folder.is_dir() else []
@@ -66,8 +69,8 @@ class SpectrumLoader:
         self.file.observe(self._on_file, names=["value"])
         self.upload.observe(self._on_upload, names=["value"])
         self.technique.observe(self._on_technique, names=["value"])
-        self.ui = w.VBox([w.HBox([self.file, self.upload, self.technique]), self.info,
-                          self.problem.widget, boxed(self.fig)])
+        parts = [w.HBox([self.file, self.upload, self.technique]), self.info, self.problem.widget]
+        self.ui = w.VBox(parts + ([boxed(self.fig)] if plot else []))
         self.ui.add_class("cp-loader")
         if initial:
             self.file.value = initial
@@ -92,7 +95,13 @@ class SpectrumLoader:
         self.spectrum = spec
         self.source = name or str(source)
         self._show()
+        for fn in self._listeners:
+            fn(spec)
         return True
+
+    def on_loaded(self, fn) -> None:
+        """Call ``fn(spectrum)`` after each successful load (e.g. a comparison panel's refresh)."""
+        self._listeners.append(fn)
 
     def _show(self) -> None:
         s = self.spectrum
