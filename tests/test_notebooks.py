@@ -18,6 +18,7 @@ import pytest
 
 from cageprint.cli import main
 from cageprint.cli.notebooks import (
+    WIDGET_NOTE,
     NotebookRunError,
     default_notebooks_dir,
     inject_parameters,
@@ -120,6 +121,10 @@ def test_shared_copies_open_without_kernel_or_internet(runs, name):
     assert "widgets" not in nb.metadata  # no ~5 MB widget state per FigureWidget
     text = res.notebook.read_text()
     assert "application/vnd.jupyter.widget-state+json" not in text
+    for cell in nb.cells:
+        for out in cell.get("outputs", []):
+            if "application/vnd.jupyter.widget-view+json" in out.get("data", {}):
+                assert out["data"]["text/plain"] == WIDGET_NOTE  # not "VBox(children=(..."
     html = res.html.read_text()
     assert not re.search(r"<script[^>]*src=[\"']?(https?:)?//", html), "remote script in HTML"
     if name[:2] != "00":
@@ -161,6 +166,16 @@ def test_parameter_errors_are_plain():
 def test_run_notebooks_reports_a_missing_notebook(tmp_path, capsys):
     assert main(["run-notebooks", "--out", str(tmp_path), str(tmp_path / "nope.ipynb")]) == 1
     assert "no such file" in capsys.readouterr().out
+
+
+def test_a_failing_cell_is_reported_with_the_notebook_and_error(tmp_path):
+    nb = nbformat.v4.new_notebook()
+    nb.cells = [nbformat.v4.new_code_cell("x = 1"), nbformat.v4.new_code_cell("x / 0")]
+    nbformat.write(nb, tmp_path / "broken.ipynb")
+    with pytest.raises(NotebookRunError, match=r"notebook 'broken.ipynb' failed after .* s: "
+                                               r"ZeroDivisionError"):
+        run_notebook(tmp_path / "broken.ipynb", tmp_path / "out")
+    assert (tmp_path / "out" / "broken.ipynb").exists()  # kept, with the traceback in it
 
 
 def test_notebooks_are_stored_without_outputs():

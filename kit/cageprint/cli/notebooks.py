@@ -47,6 +47,7 @@ _REMOTE_SCRIPT = re.compile(
     r"<script[^>]*\bsrc\s*=\s*[\"']?(?:https?:)?//[^>]*>\s*</script>", re.IGNORECASE
 )
 _KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+_ANSI = re.compile(r"\x1b\[[0-9;]*[A-Za-z]")
 
 
 class NotebookRunError(CageprintError):
@@ -234,7 +235,8 @@ def run_notebook(
     html = out / (src.stem + ".html")
     html.write_text(export_html(nb), encoding="utf-8")
     if error is not None:
-        last = error.strip().splitlines()[-1] if error.strip() else "cell failed"
+        plain = _ANSI.sub("", error).strip()
+        last = plain.splitlines()[-1] if plain else "cell failed"
         raise NotebookRunError(
             f"notebook {src.name!r} failed after {seconds:.1f} s: {last} "
             f"(executed copy with the traceback: {ipynb})"
