@@ -85,16 +85,6 @@ def test_isomers_are_pairwise_different_graphs(all_upto_60):
                 assert not nx.is_isomorphic(cages[i].graph(), cages[j].graph())
 
 
-def test_fused_start_rule_loses_nothing_up_to_50():
-    # the search with the canonicity rule and the exhaustive one agree (common practice, no source)
-    for n in range(20, 52, 2):
-        if n == 22:
-            continue
-        fast = np.concatenate(list(iter_spirals(n)))
-        slow = np.concatenate(list(iter_spirals(n, fused_rule=False)))
-        assert np.array_equal(fast, slow), n
-
-
 @pytest.mark.slow
 def test_all_isomer_count_c70():
     # OEIS A007894 / Atlas of Fullerenes (1995), from memory: 8,149 isomers of C70, the last

@@ -329,30 +329,6 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
 #: rims with fewer faces left than this are not remembered (cheap to redo)
 MEMO_MIN_LEFT = 4
 
-#: faces allowed beyond the layer estimate in :func:`cap_table`
-CAP_SLACK = 3
-
-
-def cap_table(nf, slack):
-    """Most faces a rim of ``m`` faces can still enclose with ``q < 6`` pentagons.
-
-    Gauss-Bonnet on the uncovered disc: going one layer inwards shortens the
-    rim by ``6 - q``, so the faces left are at most the sum of the shrinking
-    layer lengths (pentagons at the centre give the largest cap), plus a
-    small ``slack`` for the centre.  ``cap[q, m]``, for q in 0..5.
-    """
-    cap = np.zeros((6, nf + 2), np.int64)
-    for q in range(6):
-        for m in range(nf + 2):
-            total = 0
-            layer = m - (6 - q)
-            while layer > 0:
-                total += layer
-                layer -= 6 - q
-            cap[q, m] = total + slack
-    return cap
-
-
 #: most slots of the table of rims known to lead nowhere (16 bytes each: 32 MiB)
 MEMO_SLOTS = 1 << 21
 
@@ -374,7 +350,6 @@ def new_search_state(n, memo_slots=None):
         "tried": np.zeros(nf + 1, np.int64),
         # [k, pentagons placed, started, nodes visited, complete windups, dead rims met]
         "ctl": np.zeros(6, np.int64),
-        "cap": cap_table(nf, CAP_SLACK),
         "entry": np.zeros(nf + 1, np.int64),
         "memo": np.zeros((memo_slots, 2), np.uint64),
         "zob": _zobrist(nf),
@@ -422,8 +397,8 @@ def _undo(k, deg, nbr, bnd, ptr, psave):
 
 
 @njit(cache=True)
-def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, entry, memo, zob, ipr,
-           fused_rule, out, max_out):
+def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, entry, memo, zob, ipr,
+           out, max_out):
     """Resumable depth-first search for canonical spirals in lexicographic order.
 
     Face 0 is always a pentagon (a canonical spiral starts at one).  At each
@@ -504,23 +479,17 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, cap, entry, me
         for i in range(6):
             psave[k, i] = ptr[i]
         size[k] = s
-        # Rule from canonicity: a spiral of this cage starting at two touching
-        # pentagons would read 5 5 ...; so once face 2 is a hexagon, no two
-        # pentagons may touch (see FUSED_START_RULE in isomers.py)
-        rule = 1 if (ipr or (fused_rule and size[1] == 6)) else 0
+        rule = 1 if ipr else 0
         c = place(k, nf, size, deg, nbr, bnd, ptr, tri, rule)
         if c != OK:
             _undo(k, deg, nbr, bnd, ptr, psave)
             continue
-        # a rim of m faces with q < 6 pentagons left can only enclose so many
-        # faces; and a face shortens the rim by at most 2 (a pentagon by 1)
-        # while the last face needs a rim of its own size
-        # (with isolated pentagons, no two pentagons follow each other either,
-        # since consecutive faces of a spiral touch)
+        # a face shortens the rim by at most 2 (a pentagon by 1) while the last
+        # face needs a rim of its own size; with isolated pentagons no two
+        # pentagons follow each other either (consecutive faces touch)
         m = ptr[1] - ptr[0]
         if k < nf - 1 and (
-            (q < 6 and left > cap[q, m])
-            or m + q - 2 * (left - 1) > 6
+            m + q - 2 * (left - 1) > 6
             or (rule == 1 and q > 0 and left < 2 * q - (0 if s == 5 else 1))
         ):
             _undo(k, deg, nbr, bnd, ptr, psave)

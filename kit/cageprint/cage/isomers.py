@@ -12,24 +12,19 @@ Kept spirals therefore come out in increasing lexicographic order, which is
 the order that defines isomer numbers (IPR isomers are numbered among IPR
 isomers).
 
-Partial spirals are also cut by bounds on the rim: a face shortens the rim
-by at most two faces (a pentagon by one) and the last face needs a rim of its
-own size (exact); with isolated pentagons no two pentagons follow each other
-(exact); and a rim with fewer than six pentagons left can enclose only so
-many faces (a layer estimate from Gauss-Bonnet with a safety margin,
-:func:`cageprint.cage._kernels.cap_table`).  What follows a partial spiral
-depends only on its depth, the pentagons used and the rim, so a rim whose
-whole subtree held no complete spiral is remembered (by a 128-bit hash) and
-skipped when met again.
+Partial spirals are also cut by two exact bounds: a face shortens the rim by
+at most two faces (a pentagon by one) and the last face needs a rim of its
+own size; and with isolated pentagons no two pentagons follow each other.
+What follows a partial spiral depends only on its depth, the pentagons used
+and the rim, so a rim whose whole subtree held no complete spiral is
+remembered (by a 128-bit hash) and skipped when met again.
 
-One rule comes from canonicity (:data:`FUSED_START_RULE`): when the second
-face is a hexagon, no two pentagons may touch, because a spiral starting at
-two touching pentagons would read 5 5 ... and be smaller.  This assumes such
-a spiral closes for at least one of the four starts at each touching pair.
-IPR lists do not depend on it.  Checks in the test suite: the all-isomer
-counts agree with the published ones for every even n from 20 to 60 and for
-70, the IPR counts for every even n from 60 to 100, and the search with and
-without the rule gives the same spirals up to C50.
+No shortcut from canonicity is taken before a spiral is complete: spirals
+from a given start fail to close often enough (about one pentagon start in
+eleven for the IPR cages up to C100) that a competitor which looks smaller
+part-way may never close.  Checks in the test suite: the all-isomer counts
+agree with the published ones for every even n from 20 to 60 and for 70, the
+IPR counts for every even n from 60 to 100.
 
 References
 ----------
@@ -57,19 +52,12 @@ __all__ = ["iter_isomers", "iter_spirals", "count_isomers", "isomer_number"]
 #: spirals handed over per call of the compiled search (the first call hands fewer)
 BATCH = 4096
 
-#: prune spirals whose second face is a hexagon as soon as two pentagons touch
-#: (see the module notes); set False for the slower search that checks every
-#: complete spiral against every pentagon start
-FUSED_START_RULE = True
 
-
-def iter_spirals(n: int, ipr: bool = False, fused_rule: bool | None = None
-                 ) -> Iterator[np.ndarray]:
+def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
     """Canonical spirals of C_n in lexicographic order, in batches.
 
     Yields (k, 12) int arrays of one-based pentagon positions.  This is the
     bare search behind :func:`iter_isomers`, without building Cage objects.
-    ``fused_rule`` overrides :data:`FUSED_START_RULE`.
 
     Examples
     --------
@@ -78,14 +66,13 @@ def iter_spirals(n: int, ipr: bool = False, fused_rule: bool | None = None
     """
     n = check_n(n)
     st = K.new_search_state(n)
-    rule = FUSED_START_RULE if fused_rule is None else bool(fused_rule)
     size = 64
     while True:
         out = np.zeros((size, 12), np.int64)
         found, done = K.search(
             st["size"], st["deg"], st["nbr"], st["bnd"], st["ptr"], st["tri"], st["nxt"],
-            st["psave"], st["tried"], st["ctl"], st["cap"], st["entry"], st["memo"], st["zob"],
-            bool(ipr), rule,
+            st["psave"], st["tried"], st["ctl"], st["entry"], st["memo"], st["zob"],
+            bool(ipr),
             out, size,
         )
         if found:
