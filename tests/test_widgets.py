@@ -84,6 +84,8 @@ def test_region_and_solvent_reach_the_session(session):
     panel.region.value = (129.5, 140.5)  # lines at 131..140 ppm inside
     assert session.thresholds("nmr")["region"] == tuple(panel.region.value)
     assert _observed(panel) == 10
+    assert panel.fig.layout.xaxis.range == tuple(panel.region.value)[::-1]  # shift drawn falling
+    assert panel.fig.layout.xaxis.autorange is False
     panel.solvent.value = "CS2"
     assert session.thresholds("nmr")["solvent"] == "CS2"
 

@@ -135,6 +135,7 @@ def test_threshold_change_updates_the_comparison_table(lab):
             panel.locator(".cp-compare-figure .js-plotly-plot .main-svg").first.wait_for(
                 timeout=60_000)
             before = table.get_attribute("data-observed")
+            panel.locator(".cp-compare").first.scroll_into_view_if_needed()
             page.screenshot(path=str(shots / "e2e-lab-before.png"), full_page=False)
             snr = panel.locator(".cp-snr select").first
             snr.scroll_into_view_if_needed()

@@ -174,6 +174,7 @@ class ComparisonPanel:
             self.fig.data[1].name = f"peaks ({pos.size})"
             self.fig.layout.title.text = self._title(pos.size)
             rx = list(self.region.value)
+            self.fig.layout.xaxis.autorange = False  # else plotly ignores the range
             self.fig.layout.xaxis.range = rx[::-1] if self.technique == "nmr" else rx
         sync_figure(self.fig)
 
