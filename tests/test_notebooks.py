@@ -95,6 +95,15 @@ def _check_05(c, truth):
     assert c["onset_nm"] is not None
 
 
+def _check_04(c, truth):
+    _check_top(c, truth)
+    details = truth["fractions"][c["fraction"]]["details"]
+    # C60: 4 IR-active T1u bands (Kraetschmer et al., Nature 1990) and 10 Raman-active 2Ag + 8Hg
+    # (Bethune et al., Chem. Phys. Lett. 1991), both from memory; the demo data carry them
+    assert c["bands"] == {"ir": len(details["ir"]["bands_cm1"]),
+                          "raman": len(details["raman"]["bands_cm1"])} == {"ir": 4, "raman": 10}
+
+
 def _check_06(c, truth):
     _check_top(c, truth)
     assert c["formula"] == truth["fractions"][c["fraction"]]["formula"]
@@ -102,7 +111,7 @@ def _check_06(c, truth):
 
 
 CHECKS = {"00": _check_00, "01": _check_01, "02": _check_02, "03": _check_top,
-          "04": _check_top, "05": _check_05, "06": _check_06}
+          "04": _check_04, "05": _check_05, "06": _check_06}
 
 
 @pytest.mark.slow
