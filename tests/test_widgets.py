@@ -233,3 +233,14 @@ def test_board_export_failure_is_shown(session, tmp_path):
     board = AssignmentBoard(session, out_dir=blocker / "sub")
     assert board.export() is None
     assert "Export failed, nothing was overwritten" in board.problem.message
+
+
+def test_a_peak_list_is_drawn_as_sticks_and_counted():
+    s = Session()
+    s.set_candidates(CANDIDATES)
+    lines = Spectrum(131.0 + np.arange(19), np.full(19, 4.0), technique="nmr", kind="peaks")
+    s.set_spectrum("nmr", lines)
+    panel = ComparisonPanel(s, "nmr", chosen=[1, 2])
+    x = np.array(panel.fig.data[0].x, dtype=float)
+    assert x.size == 3 * 19 and np.isnan(x[2::3]).all()
+    assert _observed(panel) == 19 and _predicted(panel) == ["19", "5"]

@@ -29,6 +29,7 @@ __all__ = [
     "schlegel_figure",
     "html_table",
     "peak_arrays",
+    "trace_xy",
 ]
 
 #: cageprint's own qualitative colours (orbits, candidates); repeated when exhausted
@@ -92,6 +93,25 @@ def peak_arrays(peaks: Any) -> tuple[np.ndarray, np.ndarray]:
     return np.asarray(xs, float), np.asarray(ys, float)
 
 
+def trace_xy(spectrum) -> tuple[np.ndarray, np.ndarray]:
+    """x and y to draw: the profile itself, or one stick per line of a peak list.
+
+    Examples
+    --------
+    >>> from cageprint.spectra import Spectrum
+    >>> x, y = trace_xy(Spectrum([1.0, 2.0], [3.0, 4.0], technique="ir", kind="peaks"))
+    >>> x.tolist()[:3], y.tolist()[:2]
+    ([1.0, 1.0, nan], [0.0, 3.0])
+    """
+    x = np.asarray(spectrum.x, float)
+    y = np.asarray(spectrum.y, float)
+    if spectrum.kind != "peaks":
+        return x, y
+    nan = np.full_like(x, np.nan)
+    return (np.column_stack([x, x, nan]).ravel(),
+            np.column_stack([np.zeros_like(y), y, nan]).ravel())
+
+
 def _axis_title(spectrum) -> tuple[str, str]:
     xu = {"ppm": "δ / ppm", "cm-1": "wavenumber / cm⁻¹", "nm": "wavelength / nm", "m/z": "m/z"}
     return xu.get(spectrum.x_unit, spectrum.x_unit), spectrum.y_unit
@@ -121,7 +141,8 @@ def spectrum_figure(
     """
     px, py = peak_arrays(peaks)
     fig = go.Figure(layout=_BASE_LAYOUT)
-    fig.add_scatter(x=spectrum.x, y=spectrum.y, mode="lines", name=name,
+    tx, ty = trace_xy(spectrum)
+    fig.add_scatter(x=tx, y=ty, mode="lines", name=name,
                     line=dict(color=_MEASURED, width=1.2))
     fig.add_scatter(x=px, y=py, mode="markers", name=f"peaks ({px.size})",
                     marker=dict(symbol="triangle-down", size=9, color=_PEAK),

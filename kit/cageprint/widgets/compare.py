@@ -93,7 +93,13 @@ class ComparisonPanel:
             self.solvent.add_class("cp-solvent")
             controls.append(self.solvent)
         labels = self._candidate_options()
-        pick = list(chosen) if chosen else [v for _, v in labels[:5]]
+        if chosen:
+            pick = list(chosen)
+        else:  # the first five of the ranking, else of the candidate list
+            try:
+                pick = [r.candidate.isomer for r in _port.ranking(session).rows[:5]]
+            except Exception:  # shown by the first update
+                pick = [v for _, v in labels[:5]]
         self.pick = w.SelectMultiple(options=labels, value=[v for v in pick
                                                             if v in {x for _, x in labels}],
                                      description="compare", rows=6)
@@ -125,7 +131,7 @@ class ComparisonPanel:
         with self.region.hold_trait_notifications():
             self.region.min, self.region.max = min(lo, self.region.min), max(hi, self.region.max)
         with self.fig.batch_update():
-            self.fig.data[0].x, self.fig.data[0].y = spectrum.x, spectrum.y
+            self.fig.data[0].x, self.fig.data[0].y = figures.trace_xy(spectrum)
         self.update()
 
     # -- state ---------------------------------------------------------------

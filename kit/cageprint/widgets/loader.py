@@ -113,7 +113,7 @@ class SpectrumLoader:
             f"{', ' + html.escape(str(fmt)) if fmt else ''}, {s.kind}</span>")
         new = figures.spectrum_figure(s, title=self.source)
         with self.fig.batch_update():
-            self.fig.data[0].x, self.fig.data[0].y = s.x, s.y
+            self.fig.data[0].x, self.fig.data[0].y = figures.trace_xy(s)
             self.fig.data[1].x, self.fig.data[1].y = [], []
             self.fig.data[1].name = "peaks (not picked yet)"
             self.fig.layout.title.text = self.source
