@@ -232,10 +232,10 @@ def level_figure(levels, title: str = "Hückel π levels", homo: float | None = 
                         line=dict(color=col, width=3), showlegend=False, hoverinfo="text",
                         hovertext=t)
         start += n
-    for val, label in ((homo, "HOMO"), (lumo, "LUMO")):
-        if val is not None:
+    for val, label, shift in ((homo, "HOMO", -9), (lumo, "LUMO", 9)):
+        if val is not None:  # HOMO label just below its level, LUMO just above (gap 0 too)
             fig.add_annotation(x=4, y=-val, text=f"{label} λ={val:.3f}", showarrow=False,
-                               xanchor="left")
+                               xanchor="left", yshift=shift)
     fig.update_layout(title=title, yaxis_title="λ (units of β; bonding down)",
                       xaxis=dict(visible=False, range=[-6, 8]), height=520,
                       meta={"cp": "levels"})
