@@ -21,6 +21,7 @@ from cageprint.cli.notebooks import (
     WIDGET_NOTE,
     NotebookRunError,
     default_notebooks_dir,
+    find_conclusion,
     inject_parameters,
     parse_params,
     run_notebook,
@@ -147,10 +148,13 @@ def test_shared_copies_open_without_kernel_or_internet(runs, name):
 def test_nmr_notebook_on_the_mixture_fraction(tmp_path, truth):
     # the same template on other inputs, as `cageprint run-notebooks --param` does
     frac = truth["fractions"]["C"]
-    res = run_notebook(default_notebooks_dir() / "03-carbon-13-nmr.ipynb", tmp_path, {
-        "NMR_FILE": f"demo-data/{frac['files']['nmr']}", "FORMULA": frac["formula"],
-        "SAMPLE": "C"})
-    _check_top(res.conclusion, truth)
+    nb = default_notebooks_dir() / "03-carbon-13-nmr.ipynb"
+    assert main(["run-notebooks", "--out", str(tmp_path), str(nb),
+                 "--param", f"NMR_FILE=demo-data/{frac['files']['nmr']}",
+                 "--param", f"FORMULA={frac['formula']}", "--param", "SAMPLE=C"]) == 0
+    conclusion = find_conclusion(nbformat.read(tmp_path / nb.name, as_version=4))
+    assert conclusion["fraction"] == "C"
+    _check_top(conclusion, truth)
 
 
 def test_parameters_are_injected_after_the_parameters_cell():

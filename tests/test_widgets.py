@@ -244,3 +244,14 @@ def test_a_peak_list_is_drawn_as_sticks_and_counted():
     x = np.array(panel.fig.data[0].x, dtype=float)
     assert x.size == 3 * 19 and np.isnan(x[2::3]).all()
     assert _observed(panel) == 19 and _predicted(panel) == ["19", "5"]
+
+
+def test_chooser_fused_pentagon_filter_on_all_isomers():
+    # Fowler & Manolopoulos, An Atlas of Fullerenes (1995): C28 has 2 isomers, D2 and Td
+    # (from memory); every C28 cage has fused pentagons (IPR needs 60 or 70+ atoms)
+    chooser = CandidateChooser(Session(), "C28", ipr=False)
+    fused = [v for _, v in chooser.fused.options if v >= 0]
+    assert len(chooser.rows) == 2 and min(fused) > 0
+    chooser.fused.value = fused[0]
+    assert all(r["fused pentagons"] == fused[0] for r in chooser.visible_rows())
+    assert "isomers of C28" in chooser.table.value

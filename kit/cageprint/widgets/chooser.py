@@ -100,7 +100,8 @@ class CandidateChooser:
         if c.isomer not in self._fused:
             from ..cage import Cage
 
-            self._fused[c.isomer] = len(Cage.from_spiral(c.n, c.spiral).fused_pentagon_pairs)
+            pairs = Cage.from_spiral(c.n, c.spiral).fused_pentagon_pairs  # a count
+            self._fused[c.isomer] = int(pairs) if not hasattr(pairs, "__len__") else len(pairs)
         return self._fused[c.isomer]
 
     def _rebuild_rows(self) -> None:
