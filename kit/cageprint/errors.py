@@ -17,6 +17,7 @@ __all__ = [
     "FormulaError",
     "EvidenceError",
     "SessionError",
+    "NotebookRunError",
 ]
 
 
@@ -71,3 +72,7 @@ class EvidenceError(CageprintError):
 
 class SessionError(CageprintError):
     """A session could not be saved, loaded or updated."""
+
+
+class NotebookRunError(CageprintError):
+    """A notebook could not be prepared, or a cell failed while it ran headless."""

@@ -31,7 +31,7 @@ import time
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
-from ..errors import CageprintError
+from ..errors import NotebookRunError
 
 #: plotly renderer for kernels started here (see module docstring)
 PLOTLY_RENDERER = "plotly_mimetype+notebook"
@@ -48,10 +48,6 @@ _REMOTE_SCRIPT = re.compile(
 )
 _KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _ANSI = re.compile(r"\x1b\[[0-9;]*[A-Za-z]")
-
-
-class NotebookRunError(CageprintError):
-    """A notebook could not be prepared or failed while running."""
 
 
 @dataclass(frozen=True)
