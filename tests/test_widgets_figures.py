@@ -100,6 +100,11 @@ def test_cage_views_colour_orbits_alike():
     assert [t.marker.color for t in f3.data[1:]] == [t.marker.color for t in f2.data[1:]]
 
 
+def test_html_table_keeps_the_digits_it_is_given():
+    html = figures.html_table([{"m/z": 1108.8704, "score": -5.51, "none": float("nan")}])
+    assert "<td>1108.8704</td><td>-5.51</td><td></td>" in html
+
+
 def test_html_table_escapes_and_marks():
     html = figures.html_table([{"k": 1, "name": "<script>x</script>"}, {"k": 2, "name": "b"}],
                               name="t", key="k", highlight=[2], max_rows=1, caption="a<b")

@@ -321,7 +321,7 @@ _TABLE_STYLE = (
 
 def _cell(v: Any) -> str:
     if isinstance(v, float):
-        return "" if np.isnan(v) else f"{v:.3g}"
+        return "" if np.isnan(v) else f"{v:.10g}"  # callers round; m/z keeps its decimals
     return html.escape("" if v is None else str(v))
 
 
