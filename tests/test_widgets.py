@@ -169,6 +169,8 @@ def test_upload_reads_bytes(tmp_path):
     loader._on_upload({"new": ({"name": "up.csv", "content": (tmp_path / "up.csv").read_bytes()},)})
     assert s.spectra["ir"] is loader.spectrum
     assert "up.csv" in loader.info.value and 'data-technique="ir"' in loader.info.value
+    loader.technique.value = "raman"  # an upload can be corrected too
+    assert set(s.spectra) == {"raman"}
 
 
 def test_chooser_filters_sorts_and_picks(session):

@@ -49,6 +49,7 @@ class SpectrumLoader:
         self.spectrum = None
         self.source: str | None = None
         self._listeners: list = []
+        self._read_from = None
         files = sorted(p.name for p in self.folder.iterdir()
                        if p.is_file() and p.suffix.lower() in SPECTRUM_SUFFIXES) \
             if self.folder.is_dir() else []
@@ -94,6 +95,7 @@ class SpectrumLoader:
             self.session.unload(previous.technique)  # the technique was corrected
         self.spectrum = spec
         self.source = name or str(source)
+        self._read_from = source  # path or uploaded bytes, to read again as another technique
         self._show()
         for fn in self._listeners:
             fn(spec)
@@ -134,11 +136,8 @@ class SpectrumLoader:
             self.load(bytes(content), name=name)
 
     def _on_technique(self, change) -> None:
-        if self.source is None:
-            return
-        path = self.folder / self.source
-        if path.is_file():
-            self.load(path, name=self.source)
+        if self._read_from is not None:
+            self.load(self._read_from, name=self.source)
 
 
 def _placeholder():
