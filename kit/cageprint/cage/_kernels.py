@@ -41,7 +41,7 @@ SURROUNDED = 4  # a face is surrounded before the spiral ends
 OPEN = 5  # the last face does not close the rim
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _connect(k, x, size, deg, nbr, ipr):
     if deg[x] >= size[x] or deg[k] >= size[k]:
         return OVERFULL
@@ -55,7 +55,7 @@ def _connect(k, x, size, deg, nbr, ipr):
     return OK
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _add_tri(tri, ptr, a, b, c):
     i = ptr[2]
     tri[i, 0] = a
@@ -64,7 +64,7 @@ def _add_tri(tri, ptr, a, b, c):
     ptr[2] = i + 1
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def place(k, nfaces, size, deg, nbr, bnd, ptr, tri, ipr):
     """Lay face ``k`` (its size already in ``size[k]``) onto the spiral.
 
@@ -161,7 +161,7 @@ def place(k, nfaces, size, deg, nbr, bnd, ptr, tri, ipr):
     return OK
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def unplace(k, deg, nbr):
     """Undo the edges laid by face ``k`` (faces after ``k`` must be undone first)."""
     for j in range(deg[k]):
@@ -217,11 +217,23 @@ def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, 
     The face order goes to ``out``.  Returns -1 if no spiral starts there,
     1 if its size sequence is larger than ``ref`` (abandoned at the first
     larger face), 0 if equal, 2 if smaller (or if ``have_ref`` is false).
+    ``placed`` and ``cnt`` must be all zero on entry and are left so.
     """
+    if have_ref and size[f0] == ref[0] and size[f1] > ref[1]:  # common: no work at all
+        return 1
+    r, steps = _unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd)
+    for i in range(steps):
+        f = out[i]
+        placed[f] = 0
+        for j in range(deg[f]):
+            cnt[nbr[f, j]] = 0
+    return r
+
+
+@njit(cache=True)
+def _unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd):
+    # returns (result, number of faces placed) without cleaning up
     nf = size.shape[0]
-    for i in range(nf):
-        placed[i] = 0
-        cnt[i] = 0
     state = 0 if have_ref else 2
     out[0] = f0
     out[1] = f1
@@ -231,7 +243,7 @@ def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, 
             if size[f] < ref[k]:
                 state = 2
             elif size[f] > ref[k]:
-                return 1
+                return 1, k
         placed[f] = 1
         for j in range(deg[f]):
             cnt[nbr[f, j]] += 1
@@ -247,12 +259,12 @@ def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, 
         else:
             f = nxt[b0, bm]
         if f < 0 or placed[f]:
-            return -1
+            return -1, k
         if state == 0:
             if size[f] < ref[k]:
                 state = 2
             elif size[f] > ref[k]:
-                return 1
+                return 1, k
         out[k] = f
         placed[f] = 1
         for j in range(deg[f]):
@@ -270,10 +282,10 @@ def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, 
             if not changed:
                 break
         if cnt[f] == deg[f]:
-            return -1
+            return -1, k + 1
         bnd[t] = f
         t += 1
-    return state
+    return state, nf
 
 
 @njit(cache=True)
@@ -326,18 +338,9 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
     return True
 
 
-#: rims with fewer faces left than this are not remembered (cheap to redo)
-MEMO_MIN_LEFT = 4
-
-#: most slots of the table of rims known to lead nowhere (16 bytes each: 32 MiB)
-MEMO_SLOTS = 1 << 21
-
-
-def new_search_state(n, memo_slots=None):
+def new_search_state(n):
     """Arrays holding a resumable depth-first search over spirals of C``n``."""
     nf = n // 2 + 2
-    if memo_slots is None:  # small searches need small tables
-        memo_slots = min(MEMO_SLOTS, 1 << max(10, n // 5 + 6))
     st = {
         "size": np.zeros(nf, np.int64),
         "deg": np.zeros(nf, np.int64),
@@ -348,57 +351,27 @@ def new_search_state(n, memo_slots=None):
         "nxt": -np.ones((nf, nf), np.int64),
         "psave": np.zeros((nf + 1, 6), np.int64),
         "tried": np.zeros(nf + 1, np.int64),
-        # [k, pentagons placed, started, nodes visited, complete windups, dead rims met]
-        "ctl": np.zeros(6, np.int64),
-        "entry": np.zeros(nf + 1, np.int64),
-        "memo": np.zeros((memo_slots, 2), np.uint64),
-        "zob": _zobrist(nf),
+        # [k, pentagons placed, started, nodes visited, complete windups]
+        "ctl": np.zeros(5, np.int64),
     }
     return st
 
 
-def _zobrist(nf):
-    # fixed pseudo-random words for hashing rims (seeded: runs are reproducible)
-    rng = np.random.default_rng(20261201)
-    return rng.integers(1, 2**63 - 1, size=(2, nf + 2, 16), dtype=np.int64).astype(np.uint64)
-
-
-@njit(cache=True)
-def _rim_hash(k, npent, size, deg, bnd, ptr, zob, key):
-    """Two 64-bit hashes of what decides the rest of a windup.
-
-    What follows a partial spiral depends only on the depth, the pentagons
-    used and, along the rim from its oldest face, each face's free edges and
-    whether it is a pentagon; the faces inside do not matter.
-    """
-    h = ptr[0]
-    t = ptr[1]
-    a = np.uint64(k * 64 + npent + 1) * np.uint64(0x9E3779B97F4A7C15)
-    b = np.uint64((t - h) * 131 + k) * np.uint64(0xC2B2AE3D27D4EB4F)
-    for i in range(h, t):
-        f = bnd[i]
-        code = size[f] - deg[f] + (8 if size[f] == 5 else 0)
-        j = i - h
-        a = (a ^ zob[0, j, code]) * np.uint64(0xBF58476D1CE4E5B9)
-        a = a ^ (a >> np.uint64(29))
-        b = (b ^ zob[1, j, code]) * np.uint64(0x94D049BB133111EB)
-        b = b ^ (b >> np.uint64(31))
-    key[0] = a | np.uint64(1)
-    key[1] = b
-
-
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _undo(k, deg, nbr, bnd, ptr, psave):
     unplace(k, deg, nbr)
     if ptr[4] >= 0:  # face k went onto the rim: put back what it overwrote
         bnd[ptr[4]] = ptr[5]
-    for i in range(6):
-        ptr[i] = psave[k, i]
+    ptr[0] = psave[k, 0]
+    ptr[1] = psave[k, 1]
+    ptr[2] = psave[k, 2]
+    ptr[3] = psave[k, 3]
+    ptr[4] = psave[k, 4]
+    ptr[5] = psave[k, 5]
 
 
 @njit(cache=True)
-def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, entry, memo, zob, ipr,
-           out, max_out):
+def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_out):
     """Resumable depth-first search for canonical spirals in lexicographic order.
 
     Face 0 is always a pentagon (a canonical spiral starts at one).  At each
@@ -413,8 +386,6 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, entry, memo, z
     cnt = np.zeros(nf, np.int64)
     ubnd = np.zeros(nf + 1, np.int64)
     uout = np.zeros(nf, np.int64)
-    key = np.zeros(2, np.uint64)
-    mask = memo.shape[0] - 1
     if ctl[2] == 0:
         ctl[2] = 1
         size[0] = 5
@@ -422,12 +393,10 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, entry, memo, z
         ctl[0] = 1
         ctl[1] = 1
         tried[1] = 0
-        entry[1] = 0
     k = ctl[0]
     npent = ctl[1]
     nodes = ctl[3]
     windups = ctl[4]
-    hits = ctl[5]
     while k >= 1:
         if k == nf:
             # a complete spiral: keep it if no pentagon start gives a smaller one
@@ -448,20 +417,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, entry, memo, z
                 break
             continue
         tk = tried[k]
-        if tk == 0 and nf - k >= MEMO_MIN_LEFT:
-            _rim_hash(k, npent, size, deg, bnd, ptr, zob, key)
-            slot = np.int64(key[1] & np.uint64(mask))
-            if memo[slot, 0] == key[0] and memo[slot, 1] == key[1]:
-                hits += 1
-                tk = 2
-                entry[k] = -1
         if tk == 2:
-            # remember a rim whose whole subtree held no complete windup
-            if entry[k] >= 0 and entry[k] == windups and nf - k >= MEMO_MIN_LEFT:
-                _rim_hash(k, npent, size, deg, bnd, ptr, zob, key)
-                slot = np.int64(key[1] & np.uint64(mask))
-                memo[slot, 0] = key[0]
-                memo[slot, 1] = key[1]
             k -= 1
             if k >= 1:
                 _undo(k, deg, nbr, bnd, ptr, psave)
@@ -476,8 +432,12 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, entry, memo, z
         if q < 0 or q > left:
             continue
         nodes += 1
-        for i in range(6):
-            psave[k, i] = ptr[i]
+        psave[k, 0] = ptr[0]
+        psave[k, 1] = ptr[1]
+        psave[k, 2] = ptr[2]
+        psave[k, 3] = ptr[3]
+        psave[k, 4] = ptr[4]
+        psave[k, 5] = ptr[5]
         size[k] = s
         rule = 1 if ipr else 0
         c = place(k, nf, size, deg, nbr, bnd, ptr, tri, rule)
@@ -498,10 +458,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, entry, memo, z
         k += 1
         if k < nf:
             tried[k] = 0
-            entry[k] = windups
     ctl[0] = k
     ctl[1] = npent
     ctl[3] = nodes
     ctl[4] = windups
-    ctl[5] = hits
     return nout, k < 1

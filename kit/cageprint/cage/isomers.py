@@ -15,9 +15,6 @@ isomers).
 Partial spirals are also cut by two exact bounds: a face shortens the rim by
 at most two faces (a pentagon by one) and the last face needs a rim of its
 own size; and with isolated pentagons no two pentagons follow each other.
-What follows a partial spiral depends only on its depth, the pentagons used
-and the rim, so a rim whose whole subtree held no complete spiral is
-remembered (by a 128-bit hash) and skipped when met again.
 
 No shortcut from canonicity is taken before a spiral is complete: spirals
 from a given start fail to close often enough (about one pentagon start in
@@ -71,8 +68,7 @@ def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
         out = np.zeros((size, 12), np.int64)
         found, done = K.search(
             st["size"], st["deg"], st["nbr"], st["bnd"], st["ptr"], st["tri"], st["nxt"],
-            st["psave"], st["tried"], st["ctl"], st["entry"], st["memo"], st["zob"],
-            bool(ipr),
+            st["psave"], st["tried"], st["ctl"], bool(ipr),
             out, size,
         )
         if found:
