@@ -313,6 +313,7 @@ def schlegel_figure(xy, bonds, orbits: Sequence[Sequence[int]], title: str = "")
 _TABLE_STYLE = (
     "<style>.cp-table{border-collapse:collapse;font-size:12px;margin:4px 0}"
     ".cp-table th,.cp-table td{padding:2px 8px;text-align:left;vertical-align:top;"
+    "line-height:1.35;"
     "border-bottom:1px solid #dde3e8}.cp-table th{border-bottom:2px solid #26323a}"
     ".cp-table caption{text-align:left;font-weight:600;padding:2px 0}"
     ".cp-table tr.cp-picked td{background:#fdf1d8}</style>"
