@@ -199,7 +199,7 @@ def next_matrix(tri, nf):
     return nxt
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def fill_next(tri, nxt):
     for i in range(tri.shape[0]):
         a = tri[i, 0]
@@ -320,7 +320,7 @@ def smallest_spiral(nxt, size, deg, nbr, pentagon_starts_only):
     return best_faces
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
     # the spiral being tested is faces 0, 1, 2, ... in sense 0: its sizes are ``size``
     nf = size.shape[0]
@@ -331,6 +331,8 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
             f1 = nbr[f0, j]
             for sense in range(2):
                 if f0 == 0 and f1 == 1 and sense == 0:
+                    continue
+                if size[f1] > size[1]:  # larger at once (checked here: calls cost)
                     continue
                 r = unwind(f0, f1, sense, nxt, size, deg, nbr, size, True, out, placed, cnt, bnd)
                 if r == 2:
@@ -410,7 +412,16 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
                         j += 1
                 nout += 1
             k -= 1
-            _undo(k, deg, nbr, bnd, ptr, psave)
+            for j in range(deg[k]):
+                deg[nbr[k, j]] -= 1
+            deg[k] = 0
+            if ptr[4] >= 0:
+                bnd[ptr[4]] = ptr[5]
+            ptr[0] = psave[k, 0]
+            ptr[1] = psave[k, 1]
+            ptr[2] = psave[k, 2]
+            ptr[4] = psave[k, 4]
+            ptr[5] = psave[k, 5]
             if size[k] == 5:
                 npent -= 1
             if nout >= max_out:
@@ -420,7 +431,16 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         if tk == 2:
             k -= 1
             if k >= 1:
-                _undo(k, deg, nbr, bnd, ptr, psave)
+                for j in range(deg[k]):
+                    deg[nbr[k, j]] -= 1
+                deg[k] = 0
+                if ptr[4] >= 0:
+                    bnd[ptr[4]] = ptr[5]
+                ptr[0] = psave[k, 0]
+                ptr[1] = psave[k, 1]
+                ptr[2] = psave[k, 2]
+                ptr[4] = psave[k, 4]
+                ptr[5] = psave[k, 5]
                 if size[k] == 5:
                     npent -= 1
             continue
@@ -435,25 +455,130 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         psave[k, 0] = ptr[0]
         psave[k, 1] = ptr[1]
         psave[k, 2] = ptr[2]
-        psave[k, 3] = ptr[3]
         psave[k, 4] = ptr[4]
         psave[k, 5] = ptr[5]
         size[k] = s
-        rule = 1 if ipr else 0
-        c = place(k, nf, size, deg, nbr, bnd, ptr, tri, rule)
-        if c != OK:
-            _undo(k, deg, nbr, bnd, ptr, psave)
-            continue
+        # lay face k: the same steps as `place`, written out here so that the
+        # hot loop makes no calls (each call would count references to every
+        # array it is given)
+        h = ptr[0]
+        t = ptr[1]
+        nt = ptr[2]
+        deg[k] = 0
+        ok = True
+        closed = False
+        if k == 1:
+            deg[0] = 1
+            nbr[0, 0] = 1
+            deg[1] = 1
+            nbr[1, 0] = 0
+            if ipr and s == 5:
+                ok = False
+        else:
+            bm = bnd[t - 1]
+            b0 = bnd[h]
+            # connect k to bm and b0
+            if deg[bm] >= size[bm] or (ipr and s == 5 and size[bm] == 5):
+                ok = False
+            else:
+                nbr[bm, deg[bm]] = k
+                deg[bm] += 1
+                nbr[k, 0] = bm
+                deg[k] = 1
+                if deg[b0] >= size[b0] or (ipr and s == 5 and size[b0] == 5):
+                    ok = False
+                else:
+                    nbr[b0, deg[b0]] = k
+                    deg[b0] += 1
+                    nbr[k, 1] = b0
+                    deg[k] = 2
+                    tri[nt, 0] = bm
+                    tri[nt, 1] = b0
+                    tri[nt, 2] = k
+                    nt += 1
+            while ok:
+                changed = False
+                f = bnd[h]
+                if t - h >= 2 and deg[f] == size[f]:
+                    h += 1
+                    nb = bnd[h]
+                    if t - h == 1:
+                        tri[nt, 0] = f
+                        tri[nt, 1] = nb
+                        tri[nt, 2] = k
+                        nt += 1
+                        closed = True
+                        break
+                    if deg[nb] >= size[nb] or deg[k] >= s or (ipr and s == 5 and size[nb] == 5):
+                        ok = False
+                        break
+                    nbr[nb, deg[nb]] = k
+                    deg[nb] += 1
+                    nbr[k, deg[k]] = nb
+                    deg[k] += 1
+                    tri[nt, 0] = f
+                    tri[nt, 1] = nb
+                    tri[nt, 2] = k
+                    nt += 1
+                    changed = True
+                f = bnd[t - 1]
+                if t - h >= 2 and deg[f] == size[f]:
+                    t -= 1
+                    nb = bnd[t - 1]
+                    if t - h == 1:
+                        tri[nt, 0] = nb
+                        tri[nt, 1] = f
+                        tri[nt, 2] = k
+                        nt += 1
+                        closed = True
+                        break
+                    if deg[nb] >= size[nb] or deg[k] >= s or (ipr and s == 5 and size[nb] == 5):
+                        ok = False
+                        break
+                    nbr[nb, deg[nb]] = k
+                    deg[nb] += 1
+                    nbr[k, deg[k]] = nb
+                    deg[k] += 1
+                    tri[nt, 0] = nb
+                    tri[nt, 1] = f
+                    tri[nt, 2] = k
+                    nt += 1
+                    changed = True
+                if not changed:
+                    break
+            if ok:
+                if closed:
+                    ok = (k == nf - 1 and deg[k] == s and deg[bnd[h]] == size[bnd[h]])
+                elif k == nf - 1 or deg[k] == s:
+                    ok = False
+        slot = -1
+        old = 0
+        if ok and not closed:
+            slot = t
+            old = bnd[t]
+            bnd[t] = k
+            t += 1
         # a face shortens the rim by at most 2 (a pentagon by 1) while the last
         # face needs a rim of its own size; with isolated pentagons no two
         # pentagons follow each other either (consecutive faces touch)
-        m = ptr[1] - ptr[0]
-        if k < nf - 1 and (
-            m + q - 2 * (left - 1) > 6
-            or (rule == 1 and q > 0 and left < 2 * q - (0 if s == 5 else 1))
-        ):
-            _undo(k, deg, nbr, bnd, ptr, psave)
+        if ok and k < nf - 1:
+            m = t - h
+            if m + q - 2 * (left - 1) > 6 or (
+                ipr and q > 0 and left < 2 * q - (0 if s == 5 else 1)
+            ):
+                ok = False
+        if not ok:
+            for j in range(deg[k]):
+                deg[nbr[k, j]] -= 1
+            deg[k] = 0
+            if slot >= 0:
+                bnd[slot] = old
             continue
+        ptr[0] = h
+        ptr[1] = t
+        ptr[2] = nt
+        ptr[4] = slot
+        ptr[5] = old
         npent = np_after
         k += 1
         if k < nf:
