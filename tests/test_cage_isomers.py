@@ -94,7 +94,6 @@ def test_all_isomer_count_c70():
     assert tuple(spirals[-1].tolist()) == (1, 7, 9, 11, 13, 15, 27, 29, 31, 33, 35, 37)
 
 
-@pytest.mark.slow
 def test_ipr_counts_60_to_100():
     found = {n: count_isomers(n, ipr=True) for n in IPR_COUNTS}
     assert found == IPR_COUNTS

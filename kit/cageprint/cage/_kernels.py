@@ -210,7 +210,7 @@ def fill_next(tri, nxt):
         nxt[c, a] = b
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd):
     """Read the face spiral starting at faces ``f0, f1`` in rotation ``sense``.
 
@@ -230,7 +230,7 @@ def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, 
     return r
 
 
-@njit(cache=True)
+@njit(cache=True, inline="always")
 def _unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd):
     # returns (result, number of faces placed) without cleaning up
     nf = size.shape[0]
