@@ -451,6 +451,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         left = nf - 1 - k
         if q < 0 or q > left:
             continue
+        if ipr and s == 5 and (size[bnd[ptr[1] - 1]] == 5 or size[bnd[ptr[0]]] == 5):
+            continue  # it would touch the newest or the oldest rim face, a pentagon
         nodes += 1
         psave[k, 0] = ptr[0]
         psave[k, 1] = ptr[1]
