@@ -122,8 +122,8 @@ def test_c60_ipr_is_last_of_all_and_first_of_ipr(all_upto_60):
 
 def test_c84_ipr_numbering():
     # Atlas of Fullerenes (1995), from memory: 24 IPR isomers of C84; the two major isomers
-    # are D2 (22) and D2d (23), and 24 is Td.  Point groups are not computed here; the order of
-    # the graph automorphism group (= point-group order for these cages) is: D2 4, D2d 8, Td 24.
+    # are D2 (22) and D2d (23), and 24 is D6h.  Point groups are not computed here; the order of
+    # the graph automorphism group (= point-group order for these cages) is: D2 4, D2d 8, D6h 24.
     from networkx.algorithms.isomorphism import GraphMatcher
 
     cages = list(iter_isomers(84, ipr=True))
