@@ -187,3 +187,22 @@ def test_progress_bar_goes_to_stderr(capsys):
     out, err = capsys.readouterr()
     assert out == ""
     assert "C40 isomers" in err and "40" in err
+
+
+def test_pure_python_fallback_agrees():
+    # the kernels also run uncompiled (NUMBA_DISABLE_JIT=1): same answers, common practice
+    import os
+    import subprocess
+    import sys
+
+    code = (
+        "from cageprint.cage import Cage, count_isomers; "
+        "print(count_isomers(36), count_isomers(70, ipr=True), "
+        "Cage.from_spiral(60, [1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32]).canonical_spiral)"
+    )
+    env = dict(os.environ, NUMBA_DISABLE_JIT="1")
+    res = subprocess.run([sys.executable, "-c", code], env=env, capture_output=True, text=True,
+                         timeout=300)
+    assert res.returncode == 0, res.stderr
+    assert res.stdout.split("(")[0].split() == ["15", "1"]
+    assert "(1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32)" in res.stdout

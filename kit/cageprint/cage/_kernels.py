@@ -3,7 +3,7 @@
 Everything here works on plain integer arrays so that numba can compile it;
 without numba the same functions run as ordinary (slow) Python.  Nothing in
 this module is public: :mod:`cageprint.cage.spiral` and
-:mod:`cageprint.cage.enumerate` wrap it.
+:mod:`cageprint.cage.isomers` wrap it.
 
 Conventions
 -----------
@@ -71,9 +71,8 @@ def place(k, nfaces, size, deg, nbr, bnd, ptr, tri, ipr):
     ``ptr`` holds ``[head, tail, n_triangles, offending_face, slot, old]``:
     the rim changes only by moving head and tail and by writing ``k`` into
     ``bnd[slot]`` (whose old value is kept), so saving ``ptr`` is enough to
-    undo a placement.  Returns a status code; on failure the caller restores
-    the state with :func:`unplace` and the saved ``ptr``, and ``ptr[3]``
-    names the face that broke the rule.
+    undo a placement (with the edges of face ``k`` taken off again).  Returns
+    a status code; ``ptr[3]`` names the face that broke a rule.
     """
     ptr[3] = k
     ptr[4] = -1
@@ -159,15 +158,6 @@ def place(k, nfaces, size, deg, nbr, bnd, ptr, tri, ipr):
     bnd[t] = k
     ptr[1] = t + 1
     return OK
-
-
-@njit(cache=True, inline="always")
-def unplace(k, deg, nbr):
-    """Undo the edges laid by face ``k`` (faces after ``k`` must be undone first)."""
-    for j in range(deg[k]):
-        x = nbr[k, j]
-        deg[x] -= 1
-    deg[k] = 0
 
 
 @njit(cache=True)
@@ -357,19 +347,6 @@ def new_search_state(n):
         "ctl": np.zeros(5, np.int64),
     }
     return st
-
-
-@njit(cache=True, inline="always")
-def _undo(k, deg, nbr, bnd, ptr, psave):
-    unplace(k, deg, nbr)
-    if ptr[4] >= 0:  # face k went onto the rim: put back what it overwrote
-        bnd[ptr[4]] = ptr[5]
-    ptr[0] = psave[k, 0]
-    ptr[1] = psave[k, 1]
-    ptr[2] = psave[k, 2]
-    ptr[3] = psave[k, 3]
-    ptr[4] = psave[k, 4]
-    ptr[5] = psave[k, 5]
 
 
 @njit(cache=True)
