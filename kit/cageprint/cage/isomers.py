@@ -10,7 +10,9 @@ kept only if no spiral read from another pentagon, neighbour and sense of
 rotation is smaller; each competitor is abandoned at its first larger face.
 Kept spirals therefore come out in increasing lexicographic order, which is
 the order that defines isomer numbers (IPR isomers are numbered among IPR
-isomers).
+isomers).  A cage is found if some spiral starting at a pentagon closes; the
+smallest fullerenes known to have no spiral at all are far larger than the
+sizes chemists meet (C380, from memory).
 
 Partial spirals are also cut by two exact bounds: a face shortens the rim by
 at most two faces (a pentagon by one) and the last face needs a rim of its
