@@ -206,3 +206,17 @@ def test_pure_python_fallback_agrees():
     assert res.returncode == 0, res.stderr
     assert res.stdout.split("(")[0].split() == ["15", "1"]
     assert "(1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32)" in res.stdout
+
+
+@pytest.mark.parametrize(("n", "ipr"), [(58, False), (96, True)])
+def test_split_search_gives_the_same_order(monkeypatch, n, ipr):
+    # the search split into parts run by threads hands over exactly what one search gives
+    # (common practice, no source)
+    import cageprint.cage.isomers as mod
+
+    monkeypatch.setattr(mod, "WORKERS", 2)
+    monkeypatch.setattr(mod.os, "cpu_count", lambda: 2)
+    split = np.concatenate(list(iter_spirals(n, ipr)))
+    monkeypatch.setattr(mod, "WORKERS", 1)
+    whole = np.concatenate(list(iter_spirals(n, ipr)))
+    assert np.array_equal(split, whole)

@@ -343,13 +343,14 @@ def new_search_state(n):
         "nxt": -np.ones((nf, nf), np.int64),
         "psave": np.zeros((nf + 1, 6), np.int64),
         "tried": np.zeros(nf + 1, np.int64),
-        # [k, pentagons placed, started, nodes visited, complete windups]
-        "ctl": np.zeros(5, np.int64),
+        # [k, pentagons placed, started, nodes visited, complete windups,
+        #  first face searched (faces before it are a given prefix), depth of a leaf]
+        "ctl": np.array([0, 0, 0, 0, 0, 1, nf], np.int64),
     }
     return st
 
 
-@njit(cache=True)
+@njit(cache=True, nogil=True)
 def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_out):
     """Resumable depth-first search for canonical spirals in lexicographic order.
 
@@ -358,6 +359,11 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     out in increasing lexicographic order of their pentagon positions.  Up to
     ``max_out`` spirals (rows of 12 one-based positions) are written to
     ``out``; returns ``(found, finished)``.  Call again to continue.
+
+    ``ctl[5] = d > 1`` searches only below the prefix already in
+    ``size[:d]``; ``ctl[6] = d < F`` instead lists the partial spirals of
+    ``d`` faces (rows of their pentagon positions, padded with 0) without
+    going deeper.  The two together split a search into independent parts.
     """
     nf = size.shape[0]
     nout = 0
@@ -365,18 +371,50 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     cnt = np.zeros(nf, np.int64)
     ubnd = np.zeros(nf + 1, np.int64)
     uout = np.zeros(nf, np.int64)
+    kmin = ctl[5]
+    kstop = ctl[6]
     if ctl[2] == 0:
         ctl[2] = 1
         size[0] = 5
-        place(0, nf, size, deg, nbr, bnd, ptr, tri, 0)
-        ctl[0] = 1
-        ctl[1] = 1
-        tried[1] = 0
+        npent = 0
+        for j in range(kmin):  # face 0, or a prefix known to wind up
+            place(j, nf, size, deg, nbr, bnd, ptr, tri, ipr)
+            if size[j] == 5:
+                npent += 1
+        ctl[0] = kmin
+        ctl[1] = npent
+        tried[kmin] = 0
     k = ctl[0]
     npent = ctl[1]
     nodes = ctl[3]
     windups = ctl[4]
-    while k >= 1:
+    while k >= kmin:
+        if k == kstop and kstop < nf:
+            # a prefix of the requested length: list it, do not go deeper
+            j = 0
+            for i in range(12):
+                out[nout, i] = 0
+            for i in range(kstop):
+                if size[i] == 5:
+                    out[nout, j] = i + 1
+                    j += 1
+            nout += 1
+            k -= 1
+            for j in range(deg[k]):
+                deg[nbr[k, j]] -= 1
+            deg[k] = 0
+            if ptr[4] >= 0:
+                bnd[ptr[4]] = ptr[5]
+            ptr[0] = psave[k, 0]
+            ptr[1] = psave[k, 1]
+            ptr[2] = psave[k, 2]
+            ptr[4] = psave[k, 4]
+            ptr[5] = psave[k, 5]
+            if size[k] == 5:
+                npent -= 1
+            if nout >= max_out:
+                break
+            continue
         if k == nf:
             # a complete spiral: keep it if no pentagon start gives a smaller one
             windups += 1
@@ -407,7 +445,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         tk = tried[k]
         if tk == 2:
             k -= 1
-            if k >= 1:
+            if k >= kmin:
                 for j in range(deg[k]):
                     deg[nbr[k, j]] -= 1
                 deg[k] = 0
@@ -566,4 +604,4 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     ctl[1] = npent
     ctl[3] = nodes
     ctl[4] = windups
-    return nout, k < 1
+    return nout, k < kmin

@@ -14,6 +14,10 @@ isomers).  A cage is found if some spiral starting at a pentagon closes; the
 smallest fullerenes known to have no spiral at all are far larger than the
 sizes chemists meet (C380, from memory).
 
+For larger cages the tree is cut at a fixed depth into a few hundred parts
+(each part: all spirals that begin with one partial spiral), searched by
+:data:`WORKERS` threads and handed over in order.
+
 Partial spirals are also cut by two exact bounds: a face shortens the rim by
 at most two faces (a pentagon by one) and the last face needs a rim of its
 own size; and with isolated pentagons no two pentagons follow each other.
@@ -35,8 +39,12 @@ Oxford, 1995.
 
 from __future__ import annotations
 
+import itertools
+import os
 import sys
+from collections import deque
 from collections.abc import Iterator
+from concurrent.futures import ThreadPoolExecutor
 from functools import lru_cache
 
 import numpy as np
@@ -51,12 +59,55 @@ __all__ = ["iter_isomers", "iter_spirals", "count_isomers", "isomer_number"]
 #: spirals handed over per call of the compiled search (the first call hands fewer)
 BATCH = 4096
 
+#: threads searching parts of one spiral tree at once (capped by the CPU count)
+WORKERS = 2
+
+#: cages with fewer faces than this are searched in one piece
+SPLIT_MIN_FACES = 30
+
+#: about how many parts a split search is cut into
+SPLIT_PARTS = 256
+
+
+def _run(st, ipr: bool, first: int = 64) -> Iterator[np.ndarray]:
+    # drive one compiled search to its end, handing over batches
+    size = first
+    while True:
+        out = np.zeros((size, 12), np.int64)
+        found, done = K.search(
+            st["size"], st["deg"], st["nbr"], st["bnd"], st["ptr"], st["tri"], st["nxt"],
+            st["psave"], st["tried"], st["ctl"], bool(ipr), out, size,
+        )
+        if found:
+            yield out[:found]
+        if done:
+            return
+        size = min(BATCH, size * 4)
+
+
+def _part(n: int, ipr: bool, prefix: np.ndarray, depth: int) -> np.ndarray:
+    # every canonical spiral that starts with the given partial spiral of `depth` faces
+    st = K.new_search_state(n)
+    st["size"][:depth] = 6
+    st["size"][prefix[prefix > 0] - 1] = 5
+    st["ctl"][5] = depth
+    parts = list(_run(st, ipr, BATCH))
+    return np.concatenate(parts) if parts else np.zeros((0, 12), np.int64)
+
+
+def _workers() -> int:
+    n = os.cpu_count() or 1
+    return max(1, min(WORKERS, n))
+
 
 def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
     """Canonical spirals of C_n in lexicographic order, in batches.
 
     Yields (k, 12) int arrays of one-based pentagon positions.  This is the
     bare search behind :func:`iter_isomers`, without building Cage objects.
+    For larger cages the search is split by the first faces of the spiral
+    into parts searched by :data:`WORKERS` threads at once; the parts are
+    handed over in order, so the output is the same.
 
     Examples
     --------
@@ -64,20 +115,35 @@ def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
     40
     """
     n = check_n(n)
-    st = K.new_search_state(n)
-    size = 64
+    nf = n // 2 + 2
+    workers = _workers()
+    if workers < 2 or nf < SPLIT_MIN_FACES:
+        yield from _run(K.new_search_state(n), ipr)
+        return
+    # split deep enough for a few hundred parts (listing them costs next to nothing)
+    depth = 6
     while True:
-        out = np.zeros((size, 12), np.int64)
-        found, done = K.search(
-            st["size"], st["deg"], st["nbr"], st["bnd"], st["ptr"], st["tri"], st["nxt"],
-            st["psave"], st["tried"], st["ctl"], bool(ipr),
-            out, size,
-        )
-        if found:
-            yield out[:found]
-        if done:
-            return
-        size = min(BATCH, size * 4)
+        st = K.new_search_state(n)
+        st["ctl"][6] = depth
+        prefixes = np.concatenate(list(_run(st, ipr, BATCH)) or [np.zeros((0, 12), np.int64)])
+        if len(prefixes) >= SPLIT_PARTS or depth >= nf - 6:
+            break
+        depth += 2
+    pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="cageprint-search")
+    try:
+        pending: deque = deque()
+        todo = iter(prefixes)
+        for prefix in itertools.islice(todo, 2 * workers):
+            pending.append(pool.submit(_part, n, ipr, prefix, depth))
+        while pending:
+            found = pending.popleft().result()
+            nxt = next(todo, None)
+            if nxt is not None:
+                pending.append(pool.submit(_part, n, ipr, nxt, depth))
+            if len(found):
+                yield found
+    finally:  # also when the caller stops early
+        pool.shutdown(wait=True, cancel_futures=True)
 
 
 def iter_isomers(n: int, ipr: bool = False, progress: bool = False) -> Iterator[Cage]:
