@@ -62,8 +62,9 @@ BATCH = 4096
 #: threads searching parts of one spiral tree at once (capped by the CPU count)
 WORKERS = 2
 
-#: cages with fewer faces than this are searched in one piece
+#: cages with fewer faces than this are searched in one piece (all isomers / IPR only)
 SPLIT_MIN_FACES = 30
+SPLIT_MIN_FACES_IPR = 46
 
 #: about how many parts a split search is cut into
 SPLIT_PARTS = 256
@@ -117,7 +118,7 @@ def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
     n = check_n(n)
     nf = n // 2 + 2
     workers = _workers()
-    if workers < 2 or nf < SPLIT_MIN_FACES:
+    if workers < 2 or nf < (SPLIT_MIN_FACES_IPR if ipr else SPLIT_MIN_FACES):
         yield from _run(K.new_search_state(n), ipr)
         return
     # split deep enough for a few hundred parts (listing them costs next to nothing)
