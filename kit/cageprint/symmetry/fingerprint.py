@@ -39,7 +39,7 @@ from .huckel import (
     levels_from_eigenvalues,
     shell_type,
 )
-from .orbits import atom_orbits, bond_list, bond_orbits, inadequate_links, orbit_pattern
+from .orbits import nmr_orbits, orbit_pattern
 from .results import (
     ElectronicPrediction,
     Fingerprint,
@@ -204,8 +204,7 @@ def cage_symmetry(cage) -> CageSymmetry:
 
 
 def _nmr(cs: CageSymmetry) -> NmrPrediction:
-    orbits = atom_orbits(cs.group.perms)
-    bo = bond_orbits(cs.group.perms, bond_list(cs.neighbours))
+    orbits, bo, links = nmr_orbits(cs.group.perms, cs.neighbours)
     sizes = tuple(len(o) for o in orbits)
     return NmrPrediction(
         point_group=cs.point_group,
@@ -214,7 +213,7 @@ def _nmr(cs: CageSymmetry) -> NmrPrediction:
         n_lines=len(orbits),
         pattern=orbit_pattern(sizes),
         bond_orbits=bo,
-        inadequate=inadequate_links(orbits, bo),
+        inadequate=links,
     )
 
 
@@ -256,9 +255,13 @@ def _vib_from(symbol, table, g3n, va) -> VibrationalPrediction:
     )
 
 
-def _level_labels(cs: CageSymmetry, levels) -> list[str]:
+def _level_labels(cs: CageSymmetry, levels, degs) -> list[str]:
     """Irrep label of every Hückel level, all levels reduced at once."""
     table = cs.table
+    if cs.group.order == 1:
+        # trivial group: a level is its degeneracy times the one irrep (no eigenvectors needed)
+        (r,) = table.irreps
+        return [r if d == 1 else f"{d}{r}" for d in degs]
     _, vec = cs.spectrum
     chi = level_characters(vec, levels, cs.group.perms)  # (g, L)
     oc = np.asarray(cs.match.op_class, dtype=np.int64)
@@ -284,22 +287,41 @@ def _level_labels(cs: CageSymmetry, levels) -> list[str]:
             f"number; expected whole numbers within LABEL_TOL={LABEL_TOL:g} (try a smaller "
             "huckel.DEGENERACY_TOL)"
         )
+    # few distinct multiplicity columns per cage: name each once (cached per table)
     labels = []
-    for k in range(len(levels)):
-        counts = {r: int(c) for r, c in zip(table.irreps, whole[:, k], strict=True) if c}
-        labels.append(_irrep_sum(counts) or "?")
+    name = table.name
+    for col in whole.T.astype(np.int64).tolist():
+        key = (name, tuple(col))
+        lab = _LABEL_CACHE.get(key)
+        if lab is None:
+            counts = {r: c for r, c in zip(table.irreps, col, strict=True) if c}
+            lab = _LABEL_CACHE[key] = _irrep_sum(counts) or "?"
+        labels.append(lab)
     return labels
 
 
-def _elec(cs: CageSymmetry, charge: int) -> ElectronicPrediction:
-    from .reduce import transition_allowed
+_LABEL_CACHE: dict[tuple, str] = {}
+_ALLOWED_CACHE: dict[tuple, bool] = {}
 
+
+def _allowed(table, a: str, b: str) -> bool:
+    """``transition_allowed`` memoised per table and irrep pair."""
+    key = (table.name, a, b)
+    hit = _ALLOWED_CACHE.get(key)
+    if hit is None:
+        from .reduce import transition_allowed
+
+        hit = _ALLOWED_CACHE[key] = bool(transition_allowed(table, a, b))
+    return hit
+
+
+def _elec(cs: CageSymmetry, charge: int) -> ElectronicPrediction:
     n = cs.neighbours.shape[0]
     lam, _ = cs.spectrum
     levels = levels_from_eigenvalues(lam)
     degs = [b - a for _, a, b in levels]
     energies = [e for e, _, _ in levels]
-    labels = _level_labels(cs, levels)
+    labels = _level_labels(cs, levels, degs)
     n_el = n - int(charge)
     occ = fill_levels(degs, n_el)
     homo, lumo = frontier(degs, occ)
@@ -317,7 +339,7 @@ def _elec(cs: CageSymmetry, charge: int) -> ElectronicPrediction:
                     continue
                 for ra in _components(labels[a]):
                     for rb in _components(labels[b]):
-                        ok = bool(transition_allowed(cs.table, ra, rb))
+                        ok = _allowed(cs.table, ra, rb)
                         trans.append((ra, rb, round(energies[a] - energies[b], 10), ok))
     notes = [HUCKEL_NOTE]
     if charge:

@@ -16,8 +16,26 @@ __all__ = [
     "bond_list",
     "bond_orbits",
     "inadequate_links",
+    "nmr_orbits",
     "orbit_pattern",
 ]
+
+
+def _orbit_slices(rep: np.ndarray) -> tuple[list[int], list[tuple[int, int]]]:
+    """Items sorted by orbit representative, and each orbit's ``(start, size)`` in that list.
+
+    Orbits largest first, ties by smallest representative; members in increasing order.
+    """
+    order = np.argsort(rep, kind="stable")
+    srt = rep[order]
+    m = srt.size
+    new = np.empty(m, dtype=bool)
+    new[:1] = True
+    np.not_equal(srt[1:], srt[:-1], out=new[1:])
+    starts = np.flatnonzero(new)
+    counts = np.diff(np.append(starts, m))
+    k = np.lexsort((srt[starts], -counts))
+    return order.tolist(), list(zip(starts[k].tolist(), counts[k].tolist(), strict=True))
 
 
 def _orbit_groups(rep: np.ndarray) -> list[tuple[int, ...]]:
@@ -25,14 +43,8 @@ def _orbit_groups(rep: np.ndarray) -> list[tuple[int, ...]]:
 
     Largest orbit first, ties by smallest member; members in increasing order.
     """
-    order = np.argsort(rep, kind="stable")
-    reps, starts, counts = np.unique(rep[order], return_index=True, return_counts=True)
-    flat = order.tolist()
-    out = []
-    for k in np.lexsort((reps, -counts)).tolist():
-        s = int(starts[k])
-        out.append(tuple(flat[s : s + int(counts[k])]))
-    return out
+    flat, parts = _orbit_slices(rep)
+    return [tuple(flat[s : s + c]) for s, c in parts]
 
 
 def atom_orbits(perms) -> tuple[tuple[int, ...], ...]:
@@ -84,12 +96,61 @@ def bond_orbits(perms, bonds) -> tuple[tuple[tuple[int, int], ...], ...]:
     """
     p = np.asarray(perms, dtype=np.int64)
     b = np.asarray(bonds, dtype=np.int64)
+    flat, parts = _bond_orbit_slices(p, b)
+    pairs = [tuple(x) for x in b.tolist()]
+    return tuple(tuple(pairs[k] for k in flat[s : s + c]) for s, c in parts)
+
+
+def _bond_orbit_slices(p: np.ndarray, b: np.ndarray):
     n = p.shape[1]
     a, c = p[:, b[:, 0]], p[:, b[:, 1]]
     code = np.minimum(a, c) * n + np.maximum(a, c)  # (g, m)
-    rep = code.min(axis=0)
-    groups = _orbit_groups(rep)
-    return tuple(tuple((int(b[k, 0]), int(b[k, 1])) for k in g) for g in groups)
+    return _orbit_slices(code.min(axis=0))
+
+
+def nmr_orbits(perms, neighbours):
+    """Atom orbits, bond orbits and INADEQUATE links in one pass (arrays throughout).
+
+    Same results as :func:`atom_orbits`, :func:`bond_orbits` of
+    :func:`bond_list` and :func:`inadequate_links`.
+
+    Examples
+    --------
+    >>> o, bo, links = nmr_orbits([[0, 1, 2, 3]], [[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]])
+    >>> len(o), len(bo), links[:2]
+    (4, 6, ((0, 1, 1), (0, 2, 1)))
+    """
+    p = np.asarray(perms, dtype=np.int64)
+    b = bond_list(neighbours)
+    n = p.shape[1]
+    aflat, aparts = _orbit_slices(p.min(axis=0))
+    orbits = tuple(tuple(aflat[s : s + c]) for s, c in aparts)
+    bflat, bparts = _bond_orbit_slices(p, b)
+    pairs = [tuple(x) for x in b.tolist()]
+    borbits = tuple(tuple(pairs[k] for k in bflat[s : s + c]) for s, c in bparts)
+    # line of each atom; each bond orbit adds its size to the pair of lines of its first bond
+    n_lines = len(aparts)
+    line = np.empty(n, dtype=np.int64)
+    afl = np.asarray(aflat, dtype=np.int64)
+    ast = np.array([s for s, _ in aparts], dtype=np.int64)
+    acn = np.array([c for _, c in aparts], dtype=np.int64)
+    line[afl[ast.repeat(acn) + _ranges(acn)]] = np.repeat(np.arange(n_lines), acn)
+    first = np.asarray(bflat, dtype=np.int64)[[s for s, _ in bparts]]
+    la, lb = line[b[first, 0]], line[b[first, 1]]
+    code = np.minimum(la, lb) * n_lines + np.maximum(la, lb)
+    tot = np.bincount(code, weights=[c for _, c in bparts], minlength=n_lines * n_lines)
+    nz = np.flatnonzero(tot)
+    links = tuple(
+        zip((nz // n_lines).tolist(), (nz % n_lines).tolist(), tot[nz].astype(np.int64).tolist(),
+            strict=True)
+    )
+    return orbits, borbits, links
+
+
+def _ranges(counts: np.ndarray) -> np.ndarray:
+    """``[0..c0-1, 0..c1-1, ...]`` for counts ``c``."""
+    ends = np.cumsum(counts)
+    return np.arange(ends[-1] if len(ends) else 0) - np.repeat(ends - counts, counts)
 
 
 def inadequate_links(orbits, bond_orbits_) -> tuple[tuple[int, int, int], ...]:
