@@ -16,6 +16,7 @@ rotoreflections).
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass
 
 import numpy as np
@@ -201,25 +202,34 @@ def trace_faces(neighbours) -> list[tuple[int, ...]]:
 def _vertex_classes(nb: np.ndarray, faces: list[tuple[int, ...]], rounds: int = 3) -> np.ndarray:
     """A cheap isomorphism-invariant vertex colouring (face sizes, then refinement)."""
     n = nb.shape[0]
-    pent = np.zeros(n, dtype=np.int64)
-    hexa = np.zeros(n, dtype=np.int64)
-    for f in faces:
-        if len(f) == 5:
-            pent[list(f)] += 1
-        else:
-            hexa[list(f)] += 1
-    label = pent * 16 + np.minimum(hexa, 15)
-    label = np.unique(label, return_inverse=True)[1].reshape(n)
+    sizes = np.fromiter(map(len, faces), dtype=np.int64, count=len(faces))
+    flat = np.fromiter(itertools.chain.from_iterable(faces), dtype=np.int64, count=int(sizes.sum()))
+    five = np.repeat(sizes == 5, sizes)
+    pent = np.bincount(flat[five], minlength=n)
+    hexa = np.bincount(flat[~five], minlength=n)
+    label = _ranks(pent * 16 + np.minimum(hexa, 15))
     for _ in range(rounds):
         k = int(label.max()) + 1
         nbl = np.sort(label[nb], axis=1)
         key = ((label * k + nbl[:, 0]) * k + nbl[:, 1]) * k + nbl[:, 2]
-        new = np.unique(key, return_inverse=True)[1].reshape(n)
+        new = _ranks(key)
         if new.max() == label.max():
             label = new
             break
         label = new
     return label
+
+
+def _ranks(key: np.ndarray) -> np.ndarray:
+    """Rank of each value among the distinct values (``np.unique(..., return_inverse=True)``)."""
+    order = np.argsort(key, kind="stable")
+    srt = key[order]
+    step = np.empty(srt.size, dtype=np.int64)
+    step[:1] = 0
+    np.not_equal(srt[1:], srt[:-1], out=step[1:])
+    out = np.empty(srt.size, dtype=np.int64)
+    out[order] = np.cumsum(step)
+    return out
 
 
 def _bfs_plan(nb: np.ndarray, back: np.ndarray, root: int):

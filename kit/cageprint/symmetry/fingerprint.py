@@ -137,11 +137,13 @@ class _LRU:
 _SYM_CACHE = _LRU(ANALYSIS_CACHE_SIZE)
 _FP_CACHE = _LRU(CACHE_SIZE)
 _GEO_CACHE = _LRU(64)
+_VIB_CACHE = _LRU(CACHE_SIZE)
+_TRIVIAL_MATCH: dict[float, Any] = {}
 
 
 def clear_caches() -> None:
     """Empty the symmetry, fingerprint and geometry caches."""
-    for c in (_SYM_CACHE, _FP_CACHE, _GEO_CACHE):
+    for c in (_SYM_CACHE, _FP_CACHE, _GEO_CACHE, _VIB_CACHE):
         c.data.clear()
 
 
@@ -188,7 +190,15 @@ def cage_symmetry(cage) -> CageSymmetry:
     spectrum = adjacency_spectrum(nb)
     emb = topological_embedding(nb, group, spectrum, faces=faces)
     n_fixed = (group.perms == np.arange(nb.shape[0])[None, :]).sum(axis=1)
-    match = identify_point_group(emb.ops, tol=OPS_TOL, weights=n_fixed)
+    if group.order == 1:
+        # the identity alone (its matrix was checked orthogonal when the embedding was chosen):
+        # the same C1 match for every such cage
+        match = _TRIVIAL_MATCH.get(OPS_TOL)
+        if match is None:
+            match = identify_point_group(np.eye(3)[None], tol=OPS_TOL, weights=n_fixed)
+            _TRIVIAL_MATCH[OPS_TOL] = match
+    else:
+        match = identify_point_group(emb.ops, tol=OPS_TOL, weights=n_fixed)
     if match.table.order != group.order:
         raise SymmetryError(
             f"cage graph: {group.order} automorphisms but the operations were identified as "
@@ -223,8 +233,14 @@ def _vib(cs: CageSymmetry) -> VibrationalPrediction:
     table = cs.table
     n_fixed = (cs.group.perms == np.arange(cs.group.perms.shape[1])[None, :]).sum(axis=1)
     g3n = gamma_3n(table, cs.match.op_class, cs.embedding.ops, n_fixed)
-    va = vibrational_analysis(table, g3n)
-    return _vib_from(cs.point_group, table, g3n, va)
+    # the rest depends only on the group and Γ3N: shared by cages with equal characters
+    key = (cs.point_group, np.asarray(g3n, dtype=float).tobytes())
+    hit = _VIB_CACHE.get(key)
+    if hit is None:
+        va = vibrational_analysis(table, g3n)
+        hit = _vib_from(cs.point_group, table, g3n, va)
+        _VIB_CACHE.put(key, hit)
+    return hit
 
 
 def _as_counts(table, x) -> dict[str, int]:
@@ -348,10 +364,7 @@ def _elec(cs: CageSymmetry, charge: int) -> ElectronicPrediction:
         point_group=cs.point_group,
         charge=int(charge),
         n_electrons=n_el,
-        levels=tuple(
-            (float(e), int(d), lab, int(o))
-            for e, d, lab, o in zip(energies, degs, labels, occ, strict=True)
-        ),
+        levels=tuple(zip(energies, degs, labels, occ, strict=True)),  # float, int, str, int
         homo=None if homo is None else float(energies[homo]),
         lumo=None if lumo is None else float(energies[lumo]),
         homo_index=homo,

@@ -17,6 +17,7 @@ matrix satisfies ``x[perms[g, i]] = R_g @ x[i]``.
 
 from __future__ import annotations
 
+import functools
 import itertools
 from dataclasses import dataclass
 
@@ -100,8 +101,8 @@ def _single_thread_blas():
 def eigenspaces(lam: np.ndarray, tol: float = EIGEN_TOL) -> list[tuple[int, int]]:
     """``[start, stop)`` column ranges of the degenerate levels of sorted eigenvalues."""
     cuts = np.flatnonzero(np.abs(np.diff(lam)) > tol) + 1
-    edges = np.r_[0, cuts, len(lam)]
-    return [(int(a), int(b)) for a, b in zip(edges[:-1], edges[1:], strict=True)]
+    edges = np.concatenate(([0], cuts, [len(lam)])).tolist()
+    return list(zip(edges[:-1], edges[1:], strict=True))
 
 
 def _orders(mats_or_perms, is_perm: bool, max_order: int = 24) -> np.ndarray:
@@ -195,6 +196,17 @@ def _check_candidate(x, group, porders, improper_inv_mirror):
     return ops
 
 
+@functools.lru_cache(maxsize=1024)
+def _combos(dims: tuple[int, ...]) -> tuple[tuple[int, ...], ...]:
+    """Sets of eigenspaces of total dimension 3, highest eigenvalues first (cached per dims)."""
+    by_dim = {d: [k for k, dk in enumerate(dims) if dk == d] for d in (1, 2, 3)}
+    combos = [(k,) for k in by_dim[3]]
+    combos += [tuple(sorted(c)) for c in itertools.product(by_dim[1], by_dim[2])]
+    combos += list(itertools.combinations(by_dim[1], 3))
+    combos.sort(key=lambda c: (max(c), c))
+    return tuple(combos)
+
+
 def topological_embedding(
     neighbours,
     group: AutomorphismGroup | None = None,
@@ -248,13 +260,7 @@ def topological_embedding(
         sub = AutomorphismGroup(group.perms[sel], group.proper[sel])
         mirror[sel] = _fixes_a_cell(sub, nb, faces)
     fallback = None
-    dims = [b - a for a, b in spaces]
-    by_dim = {d: [k for k, dk in enumerate(dims) if dk == d] for d in (1, 2, 3)}
-    combos = [(k,) for k in by_dim[3]]
-    combos += [tuple(sorted(c)) for c in itertools.product(by_dim[1], by_dim[2])]
-    combos += list(itertools.combinations(by_dim[1], 3))
-    combos.sort(key=lambda c: (max(c), c))  # highest eigenvalues first
-    for combo in combos:
+    for combo in _combos(tuple(b - a for a, b in spaces)):
         cols = np.concatenate([np.arange(*spaces[k]) for k in combo])
         x = vec[:, cols]
         ops = _check_candidate(x, group, porders, mirror)

@@ -80,12 +80,9 @@ def fill_levels(degeneracies, n_electrons: int) -> list[int]:
         raise CageError(
             f"charge: gives {n_electrons} π electrons; expected 0..{cap} for this cage"
         )
-    occ, left = [], int(n_electrons)
-    for d in degeneracies:
-        k = min(left, 2 * int(d))
-        occ.append(k)
-        left -= k
-    return occ
+    cap_k = 2 * np.asarray(degeneracies, dtype=np.int64).reshape(-1)
+    before = np.cumsum(cap_k) - cap_k
+    return np.clip(int(n_electrons) - before, 0, cap_k).tolist()
 
 
 def frontier(degeneracies, occupancy) -> tuple[int | None, int | None]:
@@ -100,14 +97,14 @@ def frontier(degeneracies, occupancy) -> tuple[int | None, int | None]:
     >>> frontier([1, 3, 3], [2, 6, 0])
     (1, 2)
     """
-    homo = lumo = None
-    for k, o in enumerate(occupancy):
-        if o > 0:
-            homo = k
-    for k, (d, o) in enumerate(zip(degeneracies, occupancy, strict=True)):
-        if o < 2 * d:
-            lumo = k
-            break
+    occ = np.asarray(occupancy, dtype=np.int64).reshape(-1)
+    deg = np.asarray(degeneracies, dtype=np.int64).reshape(-1)
+    if occ.shape != deg.shape:
+        raise CageError(f"occupancy: expected {deg.size} values, one per level; found {occ.size}")
+    filled = np.flatnonzero(occ > 0)
+    room = np.flatnonzero(occ < 2 * deg)
+    homo = int(filled[-1]) if filled.size else None
+    lumo = int(room[0]) if room.size else None
     return homo, lumo
 
 

@@ -21,8 +21,8 @@ __all__ = [
 ]
 
 
-def _orbit_slices(rep: np.ndarray) -> tuple[list[int], list[tuple[int, int]]]:
-    """Items sorted by orbit representative, and each orbit's ``(start, size)`` in that list.
+def _orbit_slices(rep: np.ndarray) -> tuple[list[int], np.ndarray, np.ndarray]:
+    """Items sorted by orbit representative, and each orbit's start and size in that list.
 
     Orbits largest first, ties by smallest representative; members in increasing order.
     """
@@ -35,7 +35,13 @@ def _orbit_slices(rep: np.ndarray) -> tuple[list[int], list[tuple[int, int]]]:
     starts = np.flatnonzero(new)
     counts = np.diff(np.append(starts, m))
     k = np.lexsort((srt[starts], -counts))
-    return order.tolist(), list(zip(starts[k].tolist(), counts[k].tolist(), strict=True))
+    return order.tolist(), starts[k], counts[k]
+
+
+def _split(items: list, starts: np.ndarray, counts: np.ndarray) -> tuple[tuple, ...]:
+    """``items[s:s+c]`` as tuples, for each start and size."""
+    cut = map(slice, starts.tolist(), (starts + counts).tolist())
+    return tuple(map(tuple, map(items.__getitem__, cut)))
 
 
 def _orbit_groups(rep: np.ndarray) -> list[tuple[int, ...]]:
@@ -43,8 +49,7 @@ def _orbit_groups(rep: np.ndarray) -> list[tuple[int, ...]]:
 
     Largest orbit first, ties by smallest member; members in increasing order.
     """
-    flat, parts = _orbit_slices(rep)
-    return [tuple(flat[s : s + c]) for s, c in parts]
+    return list(_split(*_orbit_slices(rep)))
 
 
 def atom_orbits(perms) -> tuple[tuple[int, ...], ...]:
@@ -96,9 +101,9 @@ def bond_orbits(perms, bonds) -> tuple[tuple[tuple[int, int], ...], ...]:
     """
     p = np.asarray(perms, dtype=np.int64)
     b = np.asarray(bonds, dtype=np.int64)
-    flat, parts = _bond_orbit_slices(p, b)
-    pairs = [tuple(x) for x in b.tolist()]
-    return tuple(tuple(pairs[k] for k in flat[s : s + c]) for s, c in parts)
+    flat, starts, counts = _bond_orbit_slices(p, b)
+    pairs = list(map(tuple, b[flat].tolist()))  # in orbit order
+    return _split(pairs, starts, counts)
 
 
 def _bond_orbit_slices(p: np.ndarray, b: np.ndarray):
@@ -123,22 +128,21 @@ def nmr_orbits(perms, neighbours):
     p = np.asarray(perms, dtype=np.int64)
     b = bond_list(neighbours)
     n = p.shape[1]
-    aflat, aparts = _orbit_slices(p.min(axis=0))
-    orbits = tuple(tuple(aflat[s : s + c]) for s, c in aparts)
-    bflat, bparts = _bond_orbit_slices(p, b)
-    pairs = [tuple(x) for x in b.tolist()]
-    borbits = tuple(tuple(pairs[k] for k in bflat[s : s + c]) for s, c in bparts)
+    aflat, ast, acn = _orbit_slices(p.min(axis=0))
+    orbits = _split(aflat, ast, acn)
+    bflat, bst, bcn = _bond_orbit_slices(p, b)
+    pairs = list(map(tuple, b[bflat].tolist()))  # in orbit order
+    borbits = _split(pairs, bst, bcn)
     # line of each atom; each bond orbit adds its size to the pair of lines of its first bond
-    n_lines = len(aparts)
+    n_lines = len(acn)
     line = np.empty(n, dtype=np.int64)
-    afl = np.asarray(aflat, dtype=np.int64)
-    ast = np.array([s for s, _ in aparts], dtype=np.int64)
-    acn = np.array([c for _, c in aparts], dtype=np.int64)
-    line[afl[ast.repeat(acn) + _ranges(acn)]] = np.repeat(np.arange(n_lines), acn)
-    first = np.asarray(bflat, dtype=np.int64)[[s for s, _ in bparts]]
+    line[np.asarray(aflat, dtype=np.int64)[ast.repeat(acn) + _ranges(acn)]] = np.repeat(
+        np.arange(n_lines), acn
+    )
+    first = np.asarray(bflat, dtype=np.int64)[bst]
     la, lb = line[b[first, 0]], line[b[first, 1]]
     code = np.minimum(la, lb) * n_lines + np.maximum(la, lb)
-    tot = np.bincount(code, weights=[c for _, c in bparts], minlength=n_lines * n_lines)
+    tot = np.bincount(code, weights=bcn, minlength=n_lines * n_lines)
     nz = np.flatnonzero(tot)
     links = tuple(
         zip((nz // n_lines).tolist(), (nz % n_lines).tolist(), tot[nz].astype(np.int64).tolist(),
