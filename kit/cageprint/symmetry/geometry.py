@@ -111,19 +111,21 @@ def _orders(mats_or_perms, is_perm: bool, max_order: int = 24) -> np.ndarray:
     g = x.shape[0]
     out = np.zeros(g, dtype=np.int64)
     if is_perm:
-        ident = np.arange(x.shape[1])[None, :]
-        cur = x.copy()
+        n = x.shape[1]
+        flat = (x + n * np.arange(g)[:, None]).ravel()  # one gather applies every permutation
+        ident = np.arange(g * n).reshape(g, n)
+        cur = flat.reshape(g, n)
         for k in range(1, max_order + 1):
             done = (out == 0) & (cur == ident).all(axis=1)
             out[done] = k
             if (out > 0).all():
                 break
-            cur = np.take_along_axis(x, cur, axis=1)
+            cur = flat[cur]
     else:
-        eye = np.eye(3)[None]
+        eye = np.eye(3).reshape(1, 9)
         cur = x.copy()
         for k in range(1, max_order + 1):
-            done = (out == 0) & (np.abs(cur - eye).max(axis=(1, 2)) < 1e-6)
+            done = (out == 0) & (np.abs(cur.reshape(g, 9) - eye).max(axis=1) < 1e-6)
             out[done] = k
             if (out > 0).all():
                 break

@@ -55,11 +55,14 @@ def levels_from_eigenvalues(lam, tol: float = DEGENERACY_TOL) -> list[tuple[floa
     >>> levels_from_eigenvalues([3.0, -1.0, -1.0, -1.0])
     [(3.0, 0, 1), (-1.0, 1, 4)]
     """
-    lam = np.asarray(lam, dtype=float)
+    lam = np.asarray(lam, dtype=float).reshape(-1)
+    if not lam.size:
+        return []
     cuts = np.flatnonzero(np.abs(np.diff(lam)) > tol) + 1
-    edges = np.r_[0, cuts, len(lam)]
-    means = (np.add.reduceat(lam, edges[:-1]) / np.diff(edges)).tolist() if len(lam) else []
-    return list(zip(means, edges[:-1].tolist(), edges[1:].tolist(), strict=True))
+    starts = np.concatenate(([0], cuts))
+    stops = np.concatenate((cuts, [lam.size]))
+    means = (np.add.reduceat(lam, starts) / (stops - starts)).tolist()
+    return list(zip(means, starts.tolist(), stops.tolist(), strict=True))
 
 
 def fill_levels(degeneracies, n_electrons: int) -> list[int]:

@@ -9,6 +9,8 @@ strength of the cross peak pair.
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 __all__ = [
@@ -83,12 +85,11 @@ def bond_list(neighbours) -> np.ndarray:
     >>> bond_list([[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]).tolist()
     [[0, 1], [0, 2], [0, 3], [1, 2], [1, 3], [2, 3]]
     """
-    nb = np.asarray(neighbours, dtype=np.int64)
+    nb = np.sort(np.asarray(neighbours, dtype=np.int64), axis=1)
     i = np.repeat(np.arange(nb.shape[0]), nb.shape[1])
     j = nb.ravel()
     keep = i < j
-    b = np.stack([i[keep], j[keep]], axis=1)
-    return b[np.lexsort((b[:, 1], b[:, 0]))]
+    return np.stack([i[keep], j[keep]], axis=1)  # rows in order, each row sorted: (i, j) order
 
 
 def bond_orbits(perms, bonds) -> tuple[tuple[tuple[int, int], ...], ...]:
@@ -128,6 +129,14 @@ def nmr_orbits(perms, neighbours):
     p = np.asarray(perms, dtype=np.int64)
     b = bond_list(neighbours)
     n = p.shape[1]
+    if p.shape[0] == 1:
+        # the identity alone: every atom and bond on its own, lines = atoms, bonds in order
+        bl = b.tolist()
+        return (
+            _singletons(n),
+            tuple(((i, j),) for i, j in bl),
+            tuple((i, j, 1) for i, j in bl),
+        )
     aflat, ast, acn = _orbit_slices(p.min(axis=0))
     orbits = _split(aflat, ast, acn)
     bflat, bst, bcn = _bond_orbit_slices(p, b)
@@ -149,6 +158,11 @@ def nmr_orbits(perms, neighbours):
             strict=True)
     )
     return orbits, borbits, links
+
+
+@functools.lru_cache(maxsize=64)
+def _singletons(n: int) -> tuple[tuple[int], ...]:
+    return tuple((i,) for i in range(n))
 
 
 def _ranges(counts: np.ndarray) -> np.ndarray:
