@@ -153,8 +153,12 @@ def _fixes_a_cell(group: AutomorphismGroup, nb: np.ndarray, faces) -> np.ndarray
 
 def _orientation_consistent(x: np.ndarray, nb: np.ndarray) -> bool:
     """True when every atom sees its three neighbours turn the same way (no fold)."""
-    b, c, d = x[nb[:, 0]], x[nb[:, 1]], x[nb[:, 2]]
-    s = np.einsum("ij,ij->i", np.cross(c - b, d - b), x)
+    b = x[nb[:, 0]]
+    u, w = (x[nb[:, 1]] - b).T, (x[nb[:, 2]] - b).T
+    # u x w, component by component as numpy's cross product forms it
+    cr = np.stack([u[1] * w[2] - u[2] * w[1], u[2] * w[0] - u[0] * w[2], u[0] * w[1] - u[1] * w[0]],
+                  axis=1)
+    s = np.einsum("ij,ij->i", cr, x)
     return bool((s > 0).all() or (s < 0).all())
 
 
@@ -253,7 +257,8 @@ def topological_embedding(
         group = automorphisms(nb)
     lam, vec = adjacency_spectrum(nb) if spectrum is None else spectrum
     spaces = eigenspaces(lam)[1 : 1 + max_levels]
-    porders = _orders(group.perms, True)
+    # the identity alone: order 1, nothing improper
+    porders = np.ones(1, dtype=np.int64) if group.order == 1 else _orders(group.perms, True)
     sel = (~group.proper) & (porders == 2)
     mirror = np.zeros(group.order, dtype=bool)
     if sel.any():
