@@ -441,5 +441,7 @@ def _as_group(perms: np.ndarray, proper: np.ndarray) -> AutomorphismGroup:
     n = perms.shape[1]
     ident = np.flatnonzero((perms == np.arange(n)[None, :]).all(axis=1) & proper)
     first = int(ident[0])
+    if perms.shape[0] == 1:
+        return AutomorphismGroup(perms=perms.copy(), proper=proper.copy())
     idx = np.r_[first, np.delete(np.arange(perms.shape[0]), first)]
     return AutomorphismGroup(perms=np.ascontiguousarray(perms[idx]), proper=proper[idx].copy())

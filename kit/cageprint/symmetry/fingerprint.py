@@ -15,8 +15,9 @@ indices) and charge.
 
 from __future__ import annotations
 
+import functools
 from collections import OrderedDict
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -96,7 +97,8 @@ class CageSymmetry:
     spectrum : tuple of numpy.ndarray
         Adjacency eigenvalues (descending) and eigenvectors.
     embedding : TopologicalEmbedding
-        Exact symmetry matrices ``embedding.ops``.
+        Exact symmetry matrices ``embedding.ops``.  Chosen when the point group
+        is identified; for a cage with the identity alone it is chosen on first use.
     match : PointGroupMatch
         ``.symbol``, ``.table``, ``.op_class`` (one class index per automorphism).
     """
@@ -104,8 +106,15 @@ class CageSymmetry:
     neighbours: np.ndarray
     group: AutomorphismGroup
     spectrum: tuple[np.ndarray, np.ndarray]
-    embedding: TopologicalEmbedding
     match: Any
+    faces: list = field(default=None, repr=False)
+    chosen: TopologicalEmbedding | None = field(default=None, repr=False)
+
+    @functools.cached_property
+    def embedding(self) -> TopologicalEmbedding:
+        if self.chosen is not None:
+            return self.chosen
+        return topological_embedding(self.neighbours, self.group, self.spectrum, faces=self.faces)
 
     @property
     def point_group(self) -> str:
@@ -139,6 +148,8 @@ _FP_CACHE = _LRU(CACHE_SIZE)
 _GEO_CACHE = _LRU(64)
 _VIB_CACHE = _LRU(CACHE_SIZE)
 _TRIVIAL_MATCH: dict[float, Any] = {}
+_IDENTITY_OPS = np.eye(3)[None]
+_IDENTITY_OPS.setflags(write=False)
 
 
 def clear_caches() -> None:
@@ -188,16 +199,17 @@ def cage_symmetry(cage) -> CageSymmetry:
     nb, faces = checked_faces(nb)
     group = automorphisms(nb, validate=False, faces=faces)
     spectrum = adjacency_spectrum(nb)
-    emb = topological_embedding(nb, group, spectrum, faces=faces)
     n_fixed = (group.perms == np.arange(nb.shape[0])[None, :]).sum(axis=1)
+    emb = None
     if group.order == 1:
-        # the identity alone (its matrix was checked orthogonal when the embedding was chosen):
-        # the same C1 match for every such cage
+        # the identity alone: the same C1 match for every such cage, and the embedding
+        # (coordinates for the model geometry) is chosen only when asked for
         match = _TRIVIAL_MATCH.get(OPS_TOL)
         if match is None:
             match = identify_point_group(np.eye(3)[None], tol=OPS_TOL, weights=n_fixed)
             _TRIVIAL_MATCH[OPS_TOL] = match
     else:
+        emb = topological_embedding(nb, group, spectrum, faces=faces)
         match = identify_point_group(emb.ops, tol=OPS_TOL, weights=n_fixed)
     if match.table.order != group.order:
         raise SymmetryError(
@@ -205,7 +217,7 @@ def cage_symmetry(cage) -> CageSymmetry:
             f"{match.symbol} of order {match.table.order}; expected equal orders "
             f"(tol={OPS_TOL:g}, OPS_TOL)"
         )
-    out = CageSymmetry(nb, group, spectrum, emb, match)
+    out = CageSymmetry(nb, group, spectrum, match, faces=faces, chosen=emb)
     _SYM_CACHE.put(key, out)
     return out
 
@@ -232,7 +244,9 @@ def _vib(cs: CageSymmetry) -> VibrationalPrediction:
 
     table = cs.table
     n_fixed = (cs.group.perms == np.arange(cs.group.perms.shape[1])[None, :]).sum(axis=1)
-    g3n = gamma_3n(table, cs.match.op_class, cs.embedding.ops, n_fixed)
+    # the identity alone: its exact matrix (the embedding's is the identity to rounding)
+    ops = _IDENTITY_OPS if cs.group.order == 1 else cs.embedding.ops
+    g3n = gamma_3n(table, cs.match.op_class, ops, n_fixed)
     # the rest depends only on the group and Γ3N: shared by cages with equal characters
     key = (cs.point_group, np.asarray(g3n, dtype=float).tobytes())
     hit = _VIB_CACHE.get(key)
@@ -304,16 +318,22 @@ def _level_labels(cs: CageSymmetry, levels, degs) -> list[str]:
             "huckel.DEGENERACY_TOL)"
         )
     # few distinct multiplicity columns per cage: name each once (cached per table)
-    labels = []
-    name = table.name
-    for col in whole.T.astype(np.int64).tolist():
-        key = (name, tuple(col))
+    w = whole.T.astype(np.int64)  # (L, irreps)
+    top = int(np.abs(w).max()) if w.size else 0
+    if (2 * top + 1) ** w.shape[1] < 2**62:  # one integer per column, then unique
+        base = np.int64(2 * top + 1) ** np.arange(w.shape[1], dtype=np.int64)
+        _, first, inv = np.unique((w + top) @ base, return_index=True, return_inverse=True)
+    else:  # pragma: no cover - multiplicities far beyond any cage level
+        _, first, inv = np.unique(w, axis=0, return_index=True, return_inverse=True)
+    names = []
+    for col in w[first].tolist():
+        key = (table.name, tuple(col))
         lab = _LABEL_CACHE.get(key)
         if lab is None:
             counts = {r: c for r, c in zip(table.irreps, col, strict=True) if c}
             lab = _LABEL_CACHE[key] = _irrep_sum(counts) or "?"
-        labels.append(lab)
-    return labels
+        names.append(lab)
+    return [names[k] for k in inv.reshape(-1).tolist()]
 
 
 _LABEL_CACHE: dict[tuple, str] = {}
