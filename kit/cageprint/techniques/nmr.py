@@ -396,11 +396,22 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_m
 
 
 def _fit(sizes, logs, costs):
+    """Best assignment over the integral scale (memoised: see :func:`_fit_cached`)."""
+    return _fit_cached(tuple(sizes), tuple(logs), tuple(costs))
+
+
+@functools.lru_cache(maxsize=4096)
+def _fit_cached(sizes, logs, costs):
     """Best assignment over the integral scale.
 
     Two starting scales (all carbons seen; the commonest orbit on the median
     line) are tried; from the better one the scale is re-fitted to the
     assigned lines and the assignment redone, until neither changes.
+
+    A pure function of hashable arguments, so it is memoised: the mixture
+    search fits each partner pattern to the same left-over lines for many
+    candidates, and a re-rank repeats the fits of unchanged lines.  The
+    result's lists are shared; callers only read them.
     """
     use = logs and logs[0] is not None
     if not use:
