@@ -330,7 +330,13 @@ def _orbit_sizes(prediction: Any) -> tuple[int, ...]:
 
 @functools.lru_cache(maxsize=256)
 def _layout(sizes: tuple[int, ...], max_merge: int):
-    """The DP's fixed parts for one pattern: sizes, options, slices, unused-orbit grid."""
+    """The DP's fixed parts for one pattern, on the flattened state grid.
+
+    Returns (values, counts, options, log contents, orbits per option, gather
+    index, flat offset per option, unused orbits per state).  ``gather[o, s]``
+    is the state before option ``o`` leads to state ``s``, or the extra slot
+    ``n_states`` (holding +inf) when ``o`` cannot lead there.
+    """
     values = sorted(set(sizes), reverse=True)
     counts = [sizes.count(v) for v in values]
     dims = tuple(c + 1 for c in counts)
@@ -341,57 +347,68 @@ def _layout(sizes: tuple[int, ...], max_merge: int):
     contents = np.array([sum(ki * v for ki, v in zip(k, values, strict=True))
                          for k in options], float)
     n_orb = np.array([sum(k) for k in options])
-    slices = [(tuple(slice(0, d - ki) for d, ki in zip(dims, k, strict=True)),
-               tuple(slice(ki, d) for d, ki in zip(dims, k, strict=True))) for k in options]
-    grids = np.indices(dims)
+    n_states = math.prod(dims)
+    grids = np.indices(dims).reshape(len(dims), n_states)
+    strides = np.array([math.prod(dims[i + 1:]) for i in range(len(dims))], np.intp)
+    k_arr = np.array(options, np.intp).reshape(len(options), len(dims))
+    offsets = k_arr @ strides
+    flat = np.arange(n_states, dtype=np.intp)
+    valid = np.all(grids[None, :, :] >= k_arr[:, :, None], axis=1)
+    gather = np.where(valid, flat[None, :] - offsets[:, None], n_states)
     unused = sum(c - g for c, g in zip(counts, grids, strict=True))
-    return values, counts, dims, options, np.log(contents), n_orb, slices, unused
+    return (values, counts, options, np.log(contents), n_orb, gather,
+            [int(o) for o in offsets], unused)
 
 
 def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_miss):
     """Best explanation of the lines by the orbits, for one integral scale.
 
     Returns (cost, per-line choice vectors or None for impurity, values, counts).
+
+    Each line's step is one gather over all options at once and a minimum
+    with the "impurity" choice; the costs after every line are kept, and the
+    choices are recovered backwards along the best path only, by the same
+    sums: the first of equal costs wins (impurity, then the earlier option).
     """
-    values, counts, dims, options, log_contents, n_orb, slices, unused = _layout(
+    values, counts, options, log_contents, n_orb, gather, offsets, unused = _layout(
         tuple(sizes), int(max_merge))
     merge = c_merge * (n_orb - 1)
-    inf = math.inf
-    dp = np.full(dims, inf)
-    dp[(0,) * len(dims)] = 0.0
-    choices = []
+    n_states = unused.size
+    n_opt = len(options)
     top = float(values[0])
-    for ell in logs:
-        if ell is None:
-            line_cost = merge
-            imp = c_imp
-        else:
-            z = (ell + ln_scale - log_contents) / tol
-            line_cost = 0.5 * z * z + merge
+    n_lines = len(logs)
+    if n_lines and logs[0] is not None:
+        shifted = np.array([ell + ln_scale for ell in logs])
+        z = (shifted[:, None] - log_contents[None, :]) / tol
+        line_costs = 0.5 * z * z + merge
+        imps = []
+        for ell in logs:
             r = math.exp(ell + ln_scale) / top
-            imp = c_imp + c_strong * r * r
-        new = dp + imp
-        choice = np.full(dims, -1, dtype=np.int32)
-        for o, (src, dst) in enumerate(slices):
-            cand = dp[src] + line_cost[o]
-            cur = new[dst]
-            better = cand < cur
-            if better.any():
-                cur[better] = cand[better]
-                choice[dst][better] = o
-        dp = new
-        choices.append(choice)
-    total = dp + c_miss * unused
-    flat = int(np.argmin(total))
-    state = list(np.unravel_index(flat, dims))
-    cost = float(total.flat[flat])
-    picks: list[tuple[int, ...] | None] = [None] * len(logs)
-    for j in range(len(logs) - 1, -1, -1):
-        o = int(choices[j][tuple(state)])
+            imps.append(c_imp + c_strong * r * r)
+    else:
+        line_costs = np.broadcast_to(merge, (n_lines, n_opt))
+        imps = [c_imp] * n_lines
+    # history[j] = best cost of each state after j lines; the last slot stays +inf
+    history = np.full((n_lines + 1, n_states + 1), math.inf)
+    history[0, 0] = 0.0
+    table = np.empty((n_opt, n_states))
+    for j in range(n_lines):
+        dp = history[j]
+        np.add(dp[gather], line_costs[j][:, None], out=table)
+        np.minimum(dp[:n_states] + imps[j], table.min(axis=0), out=history[j + 1, :n_states])
+    total = history[n_lines, :n_states] + c_miss * unused
+    state = int(np.argmin(total))
+    cost = float(total[state])
+    picks: list[tuple[int, ...] | None] = [None] * n_lines
+    for j in range(n_lines - 1, -1, -1):
+        dp = history[j]
+        here = np.empty(n_opt + 1)
+        here[0] = dp[state] + imps[j]
+        np.add(dp[gather[:, state]], line_costs[j], out=here[1:])
+        o = int(np.argmin(here)) - 1
         if o >= 0:
-            k = options[o]
-            picks[j] = k
-            state = [s - ki for s, ki in zip(state, k, strict=True)]
+            picks[j] = options[o]
+            state -= offsets[o]
     return cost, picks, values, counts
 
 
