@@ -307,6 +307,35 @@ def test_trace_faces_of_c60():
     assert sorted(len(f) for f in faces) == [5] * 12 + [6] * 20
 
 
+def test_face_walk_without_numba_gives_the_same_faces(monkeypatch):
+    # common practice, no source: the compiled and the plain face walk must agree exactly
+    import sys
+
+    mod = sys.modules["cageprint.symmetry.automorphisms"]
+    tables = [c.neighbours for c in (ipr(70, 1), ipr(84, 20), Cage.from_spiral(60, C60_IH))]
+    fast = [trace_faces(nb) for nb in tables]
+    monkeypatch.setattr(mod, "_walk_compiled", None)
+    assert [trace_faces(nb) for nb in tables] == fast
+
+
+def test_nmr_orbits_in_one_pass_match_the_separate_functions():
+    # common practice, no source: one-pass orbits/links equal the step-by-step ones (C84:12 is C1)
+    from cageprint.symmetry.orbits import (
+        atom_orbits,
+        bond_list,
+        bond_orbits,
+        inadequate_links,
+        nmr_orbits,
+    )
+
+    for c in (ipr(78, 5), ipr(84, 12), ipr(84, 20), ipr(100, 1), Cage.from_spiral(60, C60_IH)):
+        perms = automorphisms(c.neighbours).perms
+        o, bo, links = nmr_orbits(perms, c.neighbours)
+        assert o == atom_orbits(perms)
+        assert bo == bond_orbits(perms, bond_list(c.neighbours))
+        assert links == inadequate_links(o, bo)
+
+
 def test_numpy_fallback_finds_the_same_automorphisms(monkeypatch):
     # common practice, no source: the compiled and the numpy search must agree exactly
     import sys

@@ -148,8 +148,6 @@ _FP_CACHE = _LRU(CACHE_SIZE)
 _GEO_CACHE = _LRU(64)
 _VIB_CACHE = _LRU(CACHE_SIZE)
 _TRIVIAL_MATCH: dict[float, Any] = {}
-_IDENTITY_OPS = np.eye(3)[None]
-_IDENTITY_OPS.setflags(write=False)
 
 
 def clear_caches() -> None:
@@ -244,9 +242,12 @@ def _vib(cs: CageSymmetry) -> VibrationalPrediction:
 
     table = cs.table
     n_fixed = (cs.group.perms == np.arange(cs.group.perms.shape[1])[None, :]).sum(axis=1)
-    # the identity alone: its exact matrix (the embedding's is the identity to rounding)
-    ops = _IDENTITY_OPS if cs.group.order == 1 else cs.embedding.ops
-    g3n = gamma_3n(table, cs.match.op_class, ops, n_fixed)
+    if cs.group.order == 1:
+        # the identity alone (its exact matrix; the embedding's is the identity to rounding):
+        # every atom stays, trace 3
+        g3n = np.array([3.0 * n_fixed[0]])
+    else:
+        g3n = gamma_3n(table, cs.match.op_class, cs.embedding.ops, n_fixed)
     # the rest depends only on the group and Γ3N: shared by cages with equal characters
     key = (cs.point_group, np.asarray(g3n, dtype=float).tobytes())
     hit = _VIB_CACHE.get(key)

@@ -10,6 +10,7 @@ strength of the cross peak pair.
 from __future__ import annotations
 
 import functools
+import itertools
 
 import numpy as np
 
@@ -131,11 +132,12 @@ def nmr_orbits(perms, neighbours):
     n = p.shape[1]
     if p.shape[0] == 1:
         # the identity alone: every atom and bond on its own, lines = atoms, bonds in order
-        bl = b.tolist()
+        pairs = list(map(tuple, b.tolist()))
+        ones = itertools.repeat(1, len(pairs))
         return (
             _singletons(n),
-            tuple(((i, j),) for i, j in bl),
-            tuple((i, j, 1) for i, j in bl),
+            tuple(zip(pairs)),  # ((i, j),) each
+            tuple(zip(b[:, 0].tolist(), b[:, 1].tolist(), ones, strict=True)),
         )
     aflat, ast, acn = _orbit_slices(p.min(axis=0))
     orbits = _split(aflat, ast, acn)
@@ -217,6 +219,6 @@ def orbit_pattern(sizes) -> str:
     '1x60'
     """
     counts: dict[int, int] = {}
-    for s in sizes:
-        counts[int(s)] = counts.get(int(s), 0) + 1
+    for s in map(int, sizes):
+        counts[s] = counts.get(s, 0) + 1
     return "+".join(f"{counts[s]}x{s}" for s in sorted(counts, reverse=True))
