@@ -333,9 +333,10 @@ def _layout(sizes: tuple[int, ...], max_merge: int):
     """The DP's fixed parts for one pattern, on the flattened state grid.
 
     Returns (values, counts, options, log contents, orbits per option, gather
-    index, flat offset per option, unused orbits per state).  ``gather[o, s]``
-    is the state before option ``o`` leads to state ``s``, or the extra slot
-    ``n_states`` (holding +inf) when ``o`` cannot lead there.
+    index, the same per state as lists, flat offset per option, unused orbits
+    per state).  ``gather[o, s]`` is the state before option ``o`` leads to
+    state ``s``, or the extra slot ``n_states`` (holding +inf) when ``o``
+    cannot lead there.
     """
     values = sorted(set(sizes), reverse=True)
     counts = [sizes.count(v) for v in values]
@@ -356,7 +357,7 @@ def _layout(sizes: tuple[int, ...], max_merge: int):
     valid = np.all(grids[None, :, :] >= k_arr[:, :, None], axis=1)
     gather = np.where(valid, flat[None, :] - offsets[:, None], n_states)
     unused = sum(c - g for c, g in zip(counts, grids, strict=True))
-    return (values, counts, options, np.log(contents), n_orb, gather,
+    return (values, counts, options, np.log(contents), n_orb, gather, gather.T.tolist(),
             [int(o) for o in offsets], unused)
 
 
@@ -370,7 +371,7 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_m
     choices are recovered backwards along the best path only, by the same
     sums: the first of equal costs wins (impurity, then the earlier option).
     """
-    values, counts, options, log_contents, n_orb, gather, offsets, unused = _layout(
+    values, counts, options, log_contents, n_orb, gather, sources, offsets, unused = _layout(
         tuple(sizes), int(max_merge))
     merge = c_merge * (n_orb - 1)
     n_states = unused.size
@@ -400,12 +401,16 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_m
     state = int(np.argmin(total))
     cost = float(total[state])
     picks: list[tuple[int, ...] | None] = [None] * n_lines
+    costs_per_line = line_costs.tolist()
     for j in range(n_lines - 1, -1, -1):
+        # the same float64 sums as above, in Python floats; strict < keeps the first
         dp = history[j]
-        here = np.empty(n_opt + 1)
-        here[0] = dp[state] + imps[j]
-        np.add(dp[gather[:, state]], line_costs[j], out=here[1:])
-        o = int(np.argmin(here)) - 1
+        best = dp.item(state) + imps[j]
+        o = -1
+        for i, (src, c) in enumerate(zip(sources[state], costs_per_line[j], strict=True)):
+            v = dp.item(src) + c
+            if v < best:
+                best, o = v, i
         if o >= 0:
             picks[j] = options[o]
             state -= offsets[o]
