@@ -393,10 +393,17 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_m
     history = np.full((n_lines + 1, n_states + 1), math.inf)
     history[0, 0] = 0.0
     table = np.empty((n_opt, n_states))
+    lowest = np.empty(n_states)
+    columns = np.ascontiguousarray(line_costs.T)[:, :, None]
+    take, add, minimum, reduce_min = np.take, np.add, np.minimum, np.minimum.reduce
     for j in range(n_lines):
         dp = history[j]
-        np.add(dp[gather], line_costs[j][:, None], out=table)
-        np.minimum(dp[:n_states] + imps[j], table.min(axis=0), out=history[j + 1, :n_states])
+        nxt = history[j + 1, :n_states]
+        take(dp, gather, out=table)
+        add(table, columns[:, j], out=table)
+        reduce_min(table, axis=0, out=lowest)
+        add(dp[:n_states], imps[j], out=nxt)
+        minimum(nxt, lowest, out=nxt)
     total = history[n_lines, :n_states] + c_miss * unused
     state = int(np.argmin(total))
     cost = float(total[state])
