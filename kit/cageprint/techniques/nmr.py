@@ -471,13 +471,23 @@ def _fit_cached(sizes, logs, costs):
     return best
 
 
+@functools.lru_cache(maxsize=1024)
+def _tuple_sizes(sizes: tuple) -> tuple[int, ...]:
+    """:func:`_orbit_sizes` of a tuple, memoised (the session passes the same partners)."""
+    return _orbit_sizes(sizes)
+
+
 def _partner_list(partners) -> list[tuple[tuple[int, ...], str]]:
     out: dict[tuple[int, ...], str] = {}
     for p in partners or ():
         if isinstance(p, Candidate):
             sizes, label = p.nmr_sizes, p.label
         elif isinstance(p, (tuple, list)) and len(p) == 2 and isinstance(p[1], str):
-            sizes, label = _orbit_sizes(p[0]), p[1]
+            try:
+                sizes = _tuple_sizes(p[0]) if type(p[0]) is tuple else _orbit_sizes(p[0])
+            except TypeError:  # unhashable items
+                sizes = _orbit_sizes(p[0])
+            label = p[1]
         else:
             sizes = _orbit_sizes(p)
             label = f"pattern {Candidate('C', sum(sizes), 0, '', sizes).pattern}"
