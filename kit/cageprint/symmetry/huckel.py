@@ -100,14 +100,12 @@ def frontier(degeneracies, occupancy) -> tuple[int | None, int | None]:
     >>> frontier([1, 3, 3], [2, 6, 0])
     (1, 2)
     """
-    occ = np.asarray(occupancy, dtype=np.int64).reshape(-1)
-    deg = np.asarray(degeneracies, dtype=np.int64).reshape(-1)
-    if occ.shape != deg.shape:
-        raise CageError(f"occupancy: expected {deg.size} values, one per level; found {occ.size}")
-    filled = np.flatnonzero(occ > 0)
-    room = np.flatnonzero(occ < 2 * deg)
-    homo = int(filled[-1]) if filled.size else None
-    lumo = int(room[0]) if room.size else None
+    occ, deg = list(occupancy), list(degeneracies)
+    if len(occ) != len(deg):
+        raise CageError(f"occupancy: expected {len(deg)} values, one per level; found {len(occ)}")
+    # electrons fill from the bottom: scan down from the top for the HOMO, up for the LUMO
+    homo = next((k for k in range(len(occ) - 1, -1, -1) if occ[k] > 0), None)
+    lumo = next((k for k, (d, o) in enumerate(zip(deg, occ, strict=True)) if o < 2 * d), None)
     return homo, lumo
 
 
