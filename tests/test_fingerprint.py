@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
-import functools
 import json
 import platform
 
 import numpy as np
 import pytest
 
-from cageprint.cage import Cage, iter_isomers
+from cagelib import C60_IH, ipr, ipr_isomers
+from cageprint.cage import Cage
 from cageprint.symmetry import (
     Fingerprint,
     fingerprint,
@@ -18,21 +18,6 @@ from cageprint.symmetry import (
     predict_vibrational,
     symmetric_geometry,
 )
-
-C60_IH = [1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32]
-
-
-@functools.cache
-def ipr_isomers(n: int) -> tuple[Cage, ...]:
-    return tuple(iter_isomers(n, ipr=True))
-
-
-def ipr(n: int, isomer: int) -> Cage:
-    for c in ipr_isomers(n):
-        if c.isomer == isomer:
-            return c
-    raise AssertionError(f"C{n} IPR isomer {isomer} not found")
-
 
 # ------------------------------------------------------------------ 13C NMR
 

@@ -2,31 +2,17 @@
 
 from __future__ import annotations
 
-import functools
 import math
 import re
 
 import numpy as np
 import pytest
 
-from cageprint.cage import Cage, iter_isomers
+from cagelib import C60_IH, ipr
+from cageprint.cage import Cage
 from cageprint.errors import CageError
 from cageprint.symmetry import predict_electronic
 from cageprint.symmetry.huckel import fill_levels, frontier, shell_type
-
-C60_IH = [1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32]
-
-
-@functools.cache
-def ipr_isomers(n: int) -> tuple[Cage, ...]:
-    return tuple(iter_isomers(n, ipr=True))
-
-
-def ipr(n: int, isomer: int) -> Cage:
-    for c in ipr_isomers(n):
-        if c.isomer == isomer:
-            return c
-    raise AssertionError(f"C{n} IPR isomer {isomer} not found")
 
 
 def test_c60_levels():

@@ -2,14 +2,14 @@
 
 from __future__ import annotations
 
-import functools
 import platform
 
 import networkx as nx
 import numpy as np
 import pytest
 
-from cageprint.cage import Cage, iter_isomers
+from cagelib import C60_IH, ipr, ipr_isomers
+from cageprint.cage import Cage
 from cageprint.errors import CageError, SymmetryError
 from cageprint.symmetry import (
     automorphisms,
@@ -21,20 +21,7 @@ from cageprint.symmetry import (
 from cageprint.symmetry.automorphisms import check_rotation_system, trace_faces
 from cageprint.symmetry.geometry import GEOMETRY_TOL, symmetry_operations
 
-C60_IH = [1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32]
 TETRAHEDRON = [[1, 2, 3], [0, 3, 2], [0, 1, 3], [0, 2, 1]]
-
-
-@functools.cache
-def ipr_isomers(n: int) -> tuple[Cage, ...]:
-    return tuple(iter_isomers(n, ipr=True))
-
-
-def ipr(n: int, isomer: int) -> Cage:
-    for c in ipr_isomers(n):
-        if c.isomer == isomer:
-            return c
-    raise AssertionError(f"C{n} IPR isomer {isomer} not found")
 
 
 def relabel_table(nb: np.ndarray, seed: int) -> tuple[np.ndarray, np.ndarray]:
