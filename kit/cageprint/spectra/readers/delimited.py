@@ -447,6 +447,26 @@ def _meta(table: _Table, data: bytes, source: str, fmt: str) -> dict:
     return m
 
 
+def _describe(table, data: bytes, source: str, fmt: str, technique, x_unit, y_unit,
+              observe_mhz, meta):
+    """Technique, x unit, y meaning, metadata and spectrometer MHz of a read table."""
+    xu = _x_unit_from_header(table, table.idx["x"], source, x_unit)
+    guessed, why = _guess(table, xu)
+    tech = resolve_technique(technique, guessed, False, source, why)
+    yname, yunit = _units_of(table, table.idx["y"])
+    yu = _y_meaning(y_unit, yname, yunit)
+    m = _meta(table, data, source, fmt)
+    m.update(meta or {})
+    if observe_mhz is not None:
+        m["observe_mhz"] = float(observe_mhz)
+    observe_mhz = m.get("observe_mhz")
+    if xu == "Hz" and observe_mhz is None:
+        raise SpectrumFormatError(
+            "x is in Hz; pass observe_mhz= (the spectrometer frequency in MHz) to get ppm", source
+        )
+    return tech, xu, yu, m, observe_mhz
+
+
 def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str | None = None,
                     x_column=None, y_column=None, x_unit: str | None = None,
                     y_unit: str | None = None, observe_mhz: float | None = None,
@@ -492,20 +512,9 @@ def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str |
     """
     opts = dict(delimiter=delimiter, decimal=decimal, encoding=encoding, max_points=max_points)
     table = _read_table(data, source, opts, {"x": (x_column, 0), "y": (y_column, 1)})
-    xu = _x_unit_from_header(table, table.idx["x"], source, x_unit)
-    guessed, why = _guess(table, xu)
-    tech = resolve_technique(technique, guessed, False, source, why)
-    yname, yunit = _units_of(table, table.idx["y"])
-    yu = _y_meaning(y_unit, yname, yunit)
-    m = _meta(table, data, source, "delimited")
-    m.update(meta or {})
-    if observe_mhz is not None:
-        m["observe_mhz"] = float(observe_mhz)
-    observe_mhz = m.get("observe_mhz")
-    if xu == "Hz" and observe_mhz is None:
-        raise SpectrumFormatError(
-            "x is in Hz; pass observe_mhz= (the spectrometer frequency in MHz) to get ppm", source
-        )
+    tech, xu, yu, m, observe_mhz = _describe(
+        table, data, source, "delimited", technique, x_unit, y_unit, observe_mhz, meta
+    )
     return build_spectrum(
         table.columns["x"], table.columns["y"], technique=tech, x_unit=xu, y_unit=yu,
         kind="profile", source=source, meta=m, observe_mhz=observe_mhz,
@@ -537,20 +546,9 @@ def parse_peaklist(data: bytes, source: str = BYTES_SOURCE, *, technique: str | 
     table = _read_table(
         data, source, opts, {"x": (x_column, 0), "y": (y_column, 1), "width": (width_column, 2)}
     )
-    xu = _x_unit_from_header(table, table.idx["x"], source, x_unit)
-    guessed, why = _guess(table, xu)
-    tech = resolve_technique(technique, guessed, False, source, why)
-    yname, yunit = _units_of(table, table.idx["y"])
-    yu = _y_meaning(y_unit, yname, yunit)
-    m = _meta(table, data, source, "peaklist")
-    m.update(meta or {})
-    if observe_mhz is not None:
-        m["observe_mhz"] = float(observe_mhz)
-    observe_mhz = m.get("observe_mhz")
-    if xu == "Hz" and observe_mhz is None:
-        raise SpectrumFormatError(
-            "x is in Hz; pass observe_mhz= (the spectrometer frequency in MHz) to get ppm", source
-        )
+    tech, xu, yu, m, observe_mhz = _describe(
+        table, data, source, "peaklist", technique, x_unit, y_unit, observe_mhz, meta
+    )
     widths = table.columns.get("width")
     if widths is not None and np.any(widths < 0):
         i = int(np.flatnonzero(widths < 0)[0])
