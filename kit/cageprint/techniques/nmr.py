@@ -33,7 +33,6 @@ score is minus the cost.
 from __future__ import annotations
 
 import functools
-import itertools
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -45,6 +44,15 @@ import numpy as np
 
 from ..errors import EvidenceError, SpectrumError
 from ..evidence import Candidate, TechniqueVerdict, _plain
+from .nmr_match import _fit
+from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
+    ESTIMATE_C60_ANGLE_DEG,
+    ESTIMATE_PPM_AT_C60,
+    ESTIMATE_PPM_PER_DEG,
+    StickSpectrum,
+    estimated_stick_spectrum,
+    pyramidalization_angles,
+)
 
 __all__ = [
     "NMR_REGION",
@@ -98,14 +106,6 @@ NMR_MAX_PARTNERS = 60
 NMR_IMPURITY_ALLOWANCE = 3
 NMR_LOST_ALLOWANCE = 0.3
 
-#: stick-spectrum estimate from POAV pyramidalisation: shift at the C60 angle and
-#: slope.  From memory: C60 resonates near 143 ppm (pyramidalisation 11.6 deg); in
-#: C70 the polar carbons lie ~20 ppm downfield of the flatter equatorial belt, whose
-#: angle in the symmetric model geometry is ~8 deg smaller, hence 2.5 ppm per degree.
-#: Order-of-magnitude figures for an ESTIMATE of line order only.
-ESTIMATE_PPM_AT_C60 = 143.2
-ESTIMATE_C60_ANGLE_DEG = 11.64
-ESTIMATE_PPM_PER_DEG = 2.5
 
 
 def predict_nmr(cage_or_fingerprint: Any):
@@ -326,149 +326,6 @@ def _orbit_sizes(prediction: Any) -> tuple[int, ...]:
     if not sizes or min(sizes) < 1:
         raise EvidenceError(f"compare_nmr: orbit sizes must be positive; got {sizes}")
     return sizes
-
-
-@functools.lru_cache(maxsize=256)
-def _layout(sizes: tuple[int, ...], max_merge: int):
-    """The DP's fixed parts for one pattern, on the flattened state grid.
-
-    Returns (values, counts, options, log contents, orbits per option, gather
-    index, the same per state as lists, flat offset per option, unused orbits
-    per state).  ``gather[o, s]`` is the state before option ``o`` leads to
-    state ``s``, or the extra slot ``n_states`` (holding +inf) when ``o``
-    cannot lead there.
-    """
-    values = sorted(set(sizes), reverse=True)
-    counts = [sizes.count(v) for v in values]
-    dims = tuple(c + 1 for c in counts)
-    options = []
-    for k in itertools.product(*(range(min(c, max_merge) + 1) for c in counts)):
-        if 1 <= sum(k) <= max_merge:
-            options.append(k)
-    contents = np.array([sum(ki * v for ki, v in zip(k, values, strict=True))
-                         for k in options], float)
-    n_orb = np.array([sum(k) for k in options])
-    n_states = math.prod(dims)
-    grids = np.indices(dims).reshape(len(dims), n_states)
-    strides = np.array([math.prod(dims[i + 1:]) for i in range(len(dims))], np.intp)
-    k_arr = np.array(options, np.intp).reshape(len(options), len(dims))
-    offsets = k_arr @ strides
-    flat = np.arange(n_states, dtype=np.intp)
-    valid = np.all(grids[None, :, :] >= k_arr[:, :, None], axis=1)
-    gather = np.where(valid, flat[None, :] - offsets[:, None], n_states)
-    unused = sum(c - g for c, g in zip(counts, grids, strict=True))
-    return (values, counts, options, np.log(contents), n_orb, gather, gather.T.tolist(),
-            [int(o) for o in offsets], unused)
-
-
-def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_miss):
-    """Best explanation of the lines by the orbits, for one integral scale.
-
-    Returns (cost, per-line choice vectors or None for impurity, values, counts).
-
-    Each line's step is one gather over all options at once and a minimum
-    with the "impurity" choice; the costs after every line are kept, and the
-    choices are recovered backwards along the best path only, by the same
-    sums: the first of equal costs wins (impurity, then the earlier option).
-    """
-    values, counts, options, log_contents, n_orb, gather, sources, offsets, unused = _layout(
-        tuple(sizes), int(max_merge))
-    merge = c_merge * (n_orb - 1)
-    n_states = unused.size
-    n_opt = len(options)
-    top = float(values[0])
-    n_lines = len(logs)
-    if n_lines and logs[0] is not None:
-        shifted = np.array([ell + ln_scale for ell in logs])
-        z = (shifted[:, None] - log_contents[None, :]) / tol
-        line_costs = 0.5 * z * z + merge
-        imps = []
-        for ell in logs:
-            r = math.exp(ell + ln_scale) / top
-            imps.append(c_imp + c_strong * r * r)
-    else:
-        line_costs = np.broadcast_to(merge, (n_lines, n_opt))
-        imps = [c_imp] * n_lines
-    # history[j] = best cost of each state after j lines; the last slot stays +inf
-    history = np.full((n_lines + 1, n_states + 1), math.inf)
-    history[0, 0] = 0.0
-    table = np.empty((n_opt, n_states))
-    lowest = np.empty(n_states)
-    columns = np.ascontiguousarray(line_costs.T)[:, :, None]
-    take, add, minimum, reduce_min = np.take, np.add, np.minimum, np.minimum.reduce
-    for j in range(n_lines):
-        dp = history[j]
-        nxt = history[j + 1, :n_states]
-        take(dp, gather, out=table)
-        add(table, columns[:, j], out=table)
-        reduce_min(table, axis=0, out=lowest)
-        add(dp[:n_states], imps[j], out=nxt)
-        minimum(nxt, lowest, out=nxt)
-    total = history[n_lines, :n_states] + c_miss * unused
-    state = int(np.argmin(total))
-    cost = float(total[state])
-    picks: list[tuple[int, ...] | None] = [None] * n_lines
-    costs_per_line = line_costs.tolist()
-    for j in range(n_lines - 1, -1, -1):
-        # the same float64 sums as above, in Python floats; strict < keeps the first
-        dp = history[j]
-        best = dp.item(state) + imps[j]
-        o = -1
-        for i, (src, c) in enumerate(zip(sources[state], costs_per_line[j], strict=True)):
-            v = dp.item(src) + c
-            if v < best:
-                best, o = v, i
-        if o >= 0:
-            picks[j] = options[o]
-            state -= offsets[o]
-    return cost, picks, values, counts
-
-
-def _fit(sizes, logs, costs):
-    """Best assignment over the integral scale (memoised: see :func:`_fit_cached`)."""
-    return _fit_cached(tuple(sizes), tuple(logs), tuple(costs))
-
-
-@functools.lru_cache(maxsize=4096)
-def _fit_cached(sizes, logs, costs):
-    """Best assignment over the integral scale.
-
-    Two starting scales (all carbons seen; the commonest orbit on the median
-    line) are tried; from the better one the scale is re-fitted to the
-    assigned lines and the assignment redone, until neither changes.
-
-    A pure function of hashable arguments, so it is memoised: the mixture
-    search fits each partner pattern to the same left-over lines for many
-    candidates, and a re-rank repeats the fits of unchanged lines.  The
-    result's lists are shared; callers only read them.
-    """
-    use = logs and logs[0] is not None
-    if not use:
-        return _assign(sizes, logs, 0.0, *costs) + (0.0,)
-    counts = {v: sizes.count(v) for v in set(sizes)}
-    v_mode = max(counts, key=lambda v: (counts[v], v))
-    total = sum(math.exp(ell) for ell in logs)
-    starts = [math.log(sum(sizes) / total), math.log(v_mode) - float(np.median(logs))]
-    if abs(starts[1] - starts[0]) < 1e-3:
-        starts = starts[:1]
-    best = min((_assign(sizes, logs, ln_s, *costs) + (ln_s,) for ln_s in starts),
-               key=lambda r: r[0])
-    seen = {round(r, 6) for r in starts}
-    for _ in range(4):
-        _cost, picks, values, _c, ln_s = best
-        diffs = [math.log(sum(ki * v for ki, v in zip(k, values, strict=True))) - ell
-                 for k, ell in zip(picks, logs, strict=True) if k is not None]
-        if not diffs:
-            break
-        new_s = float(np.mean(diffs))
-        if round(new_s, 6) in seen:
-            break
-        seen.add(round(new_s, 6))
-        res = _assign(sizes, logs, new_s, *costs) + (new_s,)
-        if res[0] >= best[0] - 1e-12:
-            break
-        best = res
-    return best
 
 
 @functools.lru_cache(maxsize=1024)
@@ -751,113 +608,3 @@ def _verdict(obs, sizes, pattern, cost, picks, values, counts, ln_s, use, tol,
             "fraction": mixture["fraction"], "minor": mixture["minor"]},
     }
     return TechniqueVerdict("nmr", -cost, verdict, tuple(reasons), details)
-
-
-# --------------------------------------------------------------- shift estimate
-
-
-@dataclass(frozen=True)
-class StickSpectrum:
-    """An estimated stick spectrum: one stick per orbit, height = orbit size.
-
-    The positions are an ESTIMATE from cage curvature (POAV pyramidalisation
-    of the symmetric model geometry), good for the order of lines at best.
-    """
-
-    positions: tuple[float, ...]
-    heights: tuple[int, ...]
-    angles_deg: tuple[float, ...]
-    label: str = "estimate from POAV pyramidalisation (line order only)"
-
-    def to_dict(self) -> dict[str, Any]:
-        return _plain({"positions": self.positions, "heights": self.heights,
-                       "angles_deg": self.angles_deg, "label": self.label})
-
-
-def pyramidalization_angles(coords: Any, neighbours: Any) -> np.ndarray:
-    """POAV1 pyramidalisation angle (degrees) of each atom.
-
-    Parameters
-    ----------
-    coords : (n, 3) array
-    neighbours : (n, 3) int array
-
-    Notes
-    -----
-    The pi-orbital axis vector makes equal angles theta with the three sigma
-    bonds; the pyramidalisation angle is theta - 90 degrees (POAV1, Haddon,
-    J. Am. Chem. Soc. 1986; from memory).  A planar sp2 carbon gives 0.
-
-    Examples
-    --------
-    >>> xyz = [[0, 0, 0], [1, 0, 0], [-0.5, 0.866, 0], [-0.5, -0.866, 0]]
-    >>> nb = [[1, 2, 3], [0, 2, 3], [0, 1, 3], [0, 1, 2]]
-    >>> float(round(pyramidalization_angles(xyz, nb)[0], 6))
-    0.0
-    """
-    x = np.asarray(coords, float)
-    nb = np.asarray(neighbours, int)
-    u = x[nb] - x[:, None, :]
-    u /= np.linalg.norm(u, axis=2, keepdims=True)
-    v = np.cross(u[:, 1] - u[:, 0], u[:, 2] - u[:, 0])
-    v /= np.linalg.norm(v, axis=1, keepdims=True)
-    # orient away from the bonds
-    sign = np.sign(-np.einsum("ij,ij->i", v, u.sum(axis=1)))
-    sign[sign == 0] = 1.0
-    v *= sign[:, None]
-    cos_t = np.clip(np.einsum("ij,ij->i", v, u[:, 0]), -1.0, 1.0)
-    return np.degrees(np.arccos(cos_t)) - 90.0
-
-
-def estimated_stick_spectrum(cage: Any, prediction: Any = None, *,
-                             geometry: Any = None) -> StickSpectrum:
-    """Estimated 13C stick spectrum of a candidate (an ESTIMATE of line order).
-
-    Parameters
-    ----------
-    cage : Cage, Candidate or Fingerprint
-        A Cage needs ``.neighbours`` (the geometry defaults to
-        ``cageprint.symmetry.symmetric_geometry(cage)``); a Candidate or a
-        Fingerprint is rebuilt from its face spiral.
-    prediction : NmrPrediction or Fingerprint, optional
-        Needs ``.orbits`` (atom tuples); defaults to ``predict_nmr(cage)``.
-    geometry : (n, 3) array, optional
-
-    Notes
-    -----
-    More pyramidal carbons lie further downfield (the usual trend); the
-    shift is ``ESTIMATE_PPM_AT_C60 + ESTIMATE_PPM_PER_DEG * (angle -
-    ESTIMATE_C60_ANGLE_DEG)``.  The geometry is a symmetric model, not an
-    optimised structure, so only the order of the sticks means anything.
-    """
-    if not hasattr(cage, "neighbours"):
-        spiral = getattr(cage, "spiral", None)
-        if not spiral:
-            raise EvidenceError("estimated_stick_spectrum: expected a Cage, or a Candidate or "
-                                f"Fingerprint with a face spiral; got {type(cage).__name__}")
-        if prediction is None and hasattr(cage, "nmr") and hasattr(cage.nmr, "orbits"):
-            prediction = cage.nmr
-        from ..cage import Cage
-
-        cage = Cage.from_spiral(int(cage.n), tuple(spiral))
-    if prediction is None:
-        prediction = predict_nmr(cage)
-    nmr = getattr(prediction, "nmr", prediction)
-    orbits = getattr(nmr, "orbits", None)
-    if not orbits:
-        raise EvidenceError("estimated_stick_spectrum: the prediction carries no orbits")
-    if geometry is None:
-        from ..symmetry import symmetric_geometry
-
-        geometry = symmetric_geometry(cage)
-    geometry = getattr(geometry, "coords", geometry)
-    ang = pyramidalization_angles(geometry, cage.neighbours)
-    per_orbit = [float(np.mean(ang[list(orb)])) for orb in orbits]
-    ppm = [ESTIMATE_PPM_AT_C60 + ESTIMATE_PPM_PER_DEG * (a - ESTIMATE_C60_ANGLE_DEG)
-           for a in per_orbit]
-    order = np.argsort(ppm)[::-1]
-    return StickSpectrum(
-        positions=tuple(float(ppm[i]) for i in order),
-        heights=tuple(len(orbits[i]) for i in order),
-        angles_deg=tuple(float(per_orbit[i]) for i in order),
-    )
