@@ -32,7 +32,6 @@ score is minus the cost.
 
 from __future__ import annotations
 
-import functools
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
@@ -44,7 +43,7 @@ import numpy as np
 
 from ..errors import EvidenceError, SpectrumError
 from ..evidence import Candidate, TechniqueVerdict, _plain
-from .nmr_match import _fit
+from .nmr_match import _fit, _orbit_sizes, _partner_list
 from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
     ESTIMATE_C60_ANGLE_DEG,
     ESTIMATE_PPM_AT_C60,
@@ -310,47 +309,6 @@ def _pick_profile(spectrum, snr, prominence, halfwidth):
 
 
 # --------------------------------------------------------------------- compare
-
-
-def _orbit_sizes(prediction: Any) -> tuple[int, ...]:
-    if isinstance(prediction, Candidate):
-        return prediction.nmr_sizes
-    nmr = getattr(prediction, "nmr", prediction)
-    sizes = getattr(nmr, "sizes", None)
-    if sizes is None and isinstance(prediction, (tuple, list)):
-        sizes = prediction
-    if sizes is None:
-        raise EvidenceError("compare_nmr: prediction must be an NMR prediction, a "
-                            f"fingerprint, a Candidate or orbit sizes; got {type(prediction)}")
-    sizes = tuple(sorted((int(s) for s in sizes), reverse=True))
-    if not sizes or min(sizes) < 1:
-        raise EvidenceError(f"compare_nmr: orbit sizes must be positive; got {sizes}")
-    return sizes
-
-
-@functools.lru_cache(maxsize=1024)
-def _tuple_sizes(sizes: tuple) -> tuple[int, ...]:
-    """:func:`_orbit_sizes` of a tuple, memoised (the session passes the same partners)."""
-    return _orbit_sizes(sizes)
-
-
-def _partner_list(partners) -> list[tuple[tuple[int, ...], str]]:
-    out: dict[tuple[int, ...], str] = {}
-    for p in partners or ():
-        if isinstance(p, Candidate):
-            sizes, label = p.nmr_sizes, p.label
-        elif isinstance(p, (tuple, list)) and len(p) == 2 and isinstance(p[1], str):
-            try:
-                sizes = _tuple_sizes(p[0]) if type(p[0]) is tuple else _orbit_sizes(p[0])
-            except TypeError:  # unhashable items
-                sizes = _orbit_sizes(p[0])
-            label = p[1]
-        else:
-            sizes = _orbit_sizes(p)
-            label = f"pattern {Candidate('C', sum(sizes), 0, '', sizes).pattern}"
-        if sizes and sizes not in out:
-            out[sizes] = label
-    return list(out.items())
 
 
 def compare_nmr(
