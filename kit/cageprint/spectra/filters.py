@@ -14,7 +14,6 @@ using asymmetrically reweighted penalized least squares smoothing", Analyst
 
 from __future__ import annotations
 
-from collections.abc import Mapping
 from typing import Any
 
 import numpy as np
@@ -301,18 +300,6 @@ def estimate_noise(spectrum: Spectrum, region: tuple[float, float] | None = None
     if not np.isfinite(sigma):
         raise SpectrumError(f"noise needs at least 5 points; the region has {y.size}")
     return sigma, {"method": "mad-second-difference", "points": int(y.size), "region": region}
-
-
-def _plain(obj):
-    if isinstance(obj, Mapping):
-        return {str(k): _plain(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_plain(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return obj.tolist()
-    if isinstance(obj, np.generic):
-        return obj.item()
-    return obj
 
 
 def _baseline_of(spectrum: Spectrum, baseline) -> tuple[np.ndarray, Any]:

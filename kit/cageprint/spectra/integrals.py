@@ -10,8 +10,8 @@ from typing import Any
 import numpy as np
 
 from ..errors import SpectrumError
-from .filters import _baseline_of, _frozen, _need_profile, _plain, _region_integrals
-from .model import Spectrum
+from .filters import _baseline_of, _frozen, _need_profile, _region_integrals
+from .model import Spectrum, _plain
 from .peaks import PeakResult
 
 __all__ = ["INTEGRAL_FWHM", "IntegralResult", "integrate"]

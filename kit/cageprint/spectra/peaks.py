@@ -16,12 +16,11 @@ from .filters import (
     _baseline_of,
     _frozen,
     _noise_sigma,
-    _plain,
     _region_integrals,
     crop,
     smooth_array,
 )
-from .model import Spectrum
+from .model import Spectrum, _plain
 
 __all__ = [
     "PEAK_SNR",
