@@ -84,28 +84,18 @@ def _xydata_lines(x: np.ndarray, Y: list[int], form: str) -> list[str]:
     n = len(Y)
     width = JCAMP_LINE_LENGTH
     lines: list[str] = []
-    if form in ("AFFN", "PAC"):
+    token = {
+        "AFFN": lambda v: " " + str(v),
+        "PAC": lambda v: ("+" if v >= 0 else "") + str(v),
+        "SQZ": _sqz,
+    }.get(form)
+    if token is not None:
         i = 0
         while i < n:
             line = _fmt_x(x[i])
             j = i
             while j < n:
-                tok = (" " + str(Y[j])) if form == "AFFN" else (
-                    ("+" if Y[j] >= 0 else "") + str(Y[j]))
-                if len(line) + len(tok) > width and j > i:
-                    break
-                line += tok
-                j += 1
-            lines.append(line)
-            i = j
-        return lines
-    if form == "SQZ":
-        i = 0
-        while i < n:
-            line = _fmt_x(x[i])
-            j = i
-            while j < n:
-                tok = _sqz(Y[j])
+                tok = token(Y[j])
                 if len(line) + len(tok) > width and j > i:
                     break
                 line += tok
