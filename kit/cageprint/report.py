@@ -159,15 +159,21 @@ def save_record(record: Mapping[str, Any], path: str | Path) -> Path:
     return atomic_write_text(path, text + "\n")
 
 
+def read_json(path: str | Path, what: str) -> Any:
+    """Parse a JSON file; a SessionError names the file, the line and ``what`` it should be."""
+    p = Path(path)
+    try:
+        return json.loads(p.read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise SessionError(f"{p}: cannot read the {what} ({exc.strerror})") from None
+    except json.JSONDecodeError as exc:
+        raise SessionError(f"{p}, line {exc.lineno}: not a JSON {what} ({exc.msg})") from None
+
+
 def load_record(path: str | Path) -> dict[str, Any]:
     """Read a record written by :func:`save_record`."""
     p = Path(path)
-    try:
-        d = json.loads(p.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise SessionError(f"{p}: cannot read the record ({exc.strerror})") from None
-    except json.JSONDecodeError as exc:
-        raise SessionError(f"{p}, line {exc.lineno}: not a JSON record ({exc.msg})") from None
+    d = read_json(p, "record")
     if not isinstance(d, dict) or d.get("format") != RECORD_FORMAT:
         found = d.get("format") if isinstance(d, dict) else type(d).__name__
         raise SessionError(f"{p}: expected a record of format {RECORD_FORMAT!r}; "

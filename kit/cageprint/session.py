@@ -569,15 +569,9 @@ class Session:
         return atomic_write_text(path, json.dumps(self.to_dict(), indent=1))
 
     def _restore(cls, path: str | Path) -> Session:  # noqa: N805 - bound by _hybrid
-        p = Path(path)
-        try:
-            d = json.loads(p.read_text(encoding="utf-8"))
-        except OSError as exc:
-            raise SessionError(f"{p}: cannot read the session file ({exc.strerror})") from None
-        except json.JSONDecodeError as exc:
-            raise SessionError(f"{p}, line {exc.lineno}: not a JSON session file "
-                               f"({exc.msg})") from None
-        return cls.from_dict(d)
+        from .report import read_json
+
+        return cls.from_dict(read_json(path, "session file"))
 
     load = _hybrid(classmethod(_restore), _load_spectrum)
 
