@@ -71,3 +71,28 @@ def test_bad_options_exit_2_with_a_message(c78_peaks, capsys):
     assert "set_threshold('nmr', 'colour'): unknown name" in capsys.readouterr().err
     assert main(["assign", "C77", "--nmr", c78_peaks]) == 2
     assert "a fullerene cage has an even number of carbons" in capsys.readouterr().err
+
+
+def test_cli_and_record_show_the_settings_used(c78_peaks, tmp_path, capsys):
+    # regression (issue 13): what is shown must be what the session used (S/N 8, not 10)
+    rec = tmp_path / "snr8.json"
+    assert main(["assign", "C78", "--ipr", "--nmr", c78_peaks, "--set", "nmr.snr=8",
+                 "--set", "nmr.region=126,158", "--record", str(rec)]) == 0
+    out = capsys.readouterr().out
+    assert "settings used, NMR: region=126-158 ppm, solvent=none, snr=8, prominence=none" in out
+    d = json.loads(rec.read_text())
+    assert d["settings"]["nmr"]["snr"] == 8 and d["settings"]["nmr"]["region"] == [126, 158]
+    assert d["observations"]["nmr"]["thresholds"]["snr"] == 8
+    assert d["thresholds"]["nmr"] == {"snr": 8, "region": [126, 158]}
+
+
+def test_bad_settings_exit_2_with_one_line(c78_peaks, capsys):
+    assert main(["assign", "C78", "--nmr", c78_peaks, "--set", "nmr.snr=-1"]) == 2
+    err = capsys.readouterr().err.strip()
+    assert err == ("cageprint assign: error: nmr.snr = -1.0: expected a number from 0.1 to "
+                   "10000 (minimum signal-to-noise of a line)")
+    assert main(["assign", "C78", "--nmr", c78_peaks, "--set", "nmr.region=lots"]) == 2
+    assert "nmr.region = 'lots': expected two numbers low,high" in capsys.readouterr().err
+    assert main(["assign", "C78", "--nmr", c78_peaks, "--set", "xrd.snr=1"]) == 2
+    assert "technique 'xrd' is not one of mass, nmr" in capsys.readouterr().err
+

@@ -4,19 +4,20 @@ from __future__ import annotations
 
 from types import SimpleNamespace
 
+import numpy as np
 import pytest
 
 from cageprint.errors import EvidenceError
 from cageprint.evidence import (
-    DEFAULT_WEIGHTS,
     Candidate,
     Ranking,
     TechniqueVerdict,
-    mass_verdict,
     no_data,
     rank,
     verdicts_by_signature,
 )
+from cageprint.techniques.mass import MassObservation, MassSpecies, mass_verdict
+from cageprint.techniques.registry import default_weights
 
 
 def cand(isomer, sizes=(4,) * 19, pg="D2", ir=10, n=76, gap=0.3):
@@ -71,7 +72,7 @@ def test_no_data_techniques_are_marked_and_weights_visible():
     r = rank([a], {"nmr": [v("nmr", -1.0)]})
     assert r.with_data == ("nmr",)
     assert r.rows[0].verdicts["raman"].verdict == "no data"
-    assert dict(r.weights) == dict(DEFAULT_WEIGHTS)
+    assert dict(r.weights) == default_weights()
     row = r.table()[0]
     assert row["raman_verdict"] == "no data"
     assert list(row)[:5] == ["rank", "formula", "isomer", "point_group", "score"]
@@ -117,29 +118,29 @@ def test_round_trip_and_frame():
     assert df.loc[0, "reasons"] == "NMR: one NMR: two"
 
 
+def _mass_obs(*species):
+    """A mass observation holding the given (formula, cage_n, cage_charge, kind, abundance)."""
+    return MassObservation(tuple(MassSpecies(f, 1, 12.0 * n, a, 0.0, 1.0, n, q, kind)
+                                 for f, n, q, kind, a in species), (), np.zeros(0), np.zeros(0))
+
+
 def test_mass_fixes_n_and_cage_charge():
     # common practice, no source: the molecular ion fixes the cage size; an endohedral
     # cluster such as Sc3N transfers six electrons to the C80 cage, formal charge -6
     # (from memory)
     c78 = cand(1, n=78, sizes=(6,) * 13, pg="D3")
-    sp = SimpleNamespace
-    obs = sp(species=(sp(formula="C78", cage_n=78, cage_charge=0, kind="cage",
-                         relative_abundance=1.0),
-                      sp(formula="C76", cage_n=76, cage_charge=0, kind="fragment",
-                         relative_abundance=0.3)))
+    obs = _mass_obs(("C78", 78, 0, "cage", 1.0), ("C76", 76, 0, "fragment", 0.3))
     assert mass_verdict(c78, obs).verdict == "consistent"
     assert mass_verdict(cand(1), obs).verdict == "unlikely"          # C76 only a fragment
     assert mass_verdict(cand(1, n=84), obs).verdict == "ruled out"
-    minor = sp(species=(sp(formula="C78", cage_n=78, cage_charge=0, kind="cage",
-                           relative_abundance=0.05),))
+    minor = _mass_obs(("C78", 78, 0, "cage", 0.05))
     assert mass_verdict(c78, minor).verdict == "possible"
-    endo = sp(species=(sp(formula="Sc3N@C80", cage_n=80, cage_charge=-6, kind="endohedral",
-                          relative_abundance=1.0),))
+    endo = _mass_obs(("Sc3N@C80", 80, -6, "endohedral", 1.0))
     empty80 = Candidate("C80", 80, 7, "Ih", (60, 20))
     charged80 = Candidate("Sc3N@C80", 80, 7, "Ih", (60, 20), cage_charge=-6)
     assert mass_verdict(empty80, endo).verdict == "unlikely"
     assert mass_verdict(charged80, endo).verdict == "consistent"
-    assert mass_verdict(c78, sp(species=())).verdict == "no data"
+    assert mass_verdict(c78, _mass_obs()).verdict == "no data"
 
 
 def test_verdicts_by_signature_computes_once_per_pattern():

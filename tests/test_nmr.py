@@ -46,7 +46,7 @@ def peak_list(sizes, seed, *, noise=0.10, lo=130.0, hi=150.0) -> tuple[list, lis
 def rank_nmr(n: int, pos, ints):
     s = Session(f"C{n}")
     s.set_candidates(ipr_candidates(n))
-    s.set_spectrum("nmr", Spectrum(pos, ints, technique="nmr", kind="peaks"))
+    s.load("nmr", Spectrum(pos, ints, technique="nmr", kind="peaks"))
     return s.ranking
 
 
@@ -179,7 +179,7 @@ def test_profile_spectrum_with_solvent_line_ranks_c76_d2_first():
     np.testing.assert_allclose(sorted(obs.positions), sorted(pos), atol=0.005)
     s = Session("C76")
     s.set_candidates(ipr_candidates(76))
-    s.set_spectrum("nmr", Spectrum(x, y, technique="nmr"))
+    s.load("nmr", Spectrum(x, y, technique="nmr"))
     s.set_threshold("nmr", "reference_lines", [128.06])
     assert _first(s.ranking).candidate.point_group == "D2"
 

@@ -37,10 +37,10 @@ def session():
     ])
     x = np.linspace(125, 160, 3501)
     y = sum(6 / (1 + ((x - p) / 0.02) ** 2) for p in np.linspace(131, 149, 13))
-    s.set_spectrum("nmr", Spectrum(x, y + 0.01 * np.random.default_rng(0).random(x.size),
+    s.load("nmr", Spectrum(x, y + 0.01 * np.random.default_rng(0).random(x.size),
                                    technique="nmr", meta={"sha256": "ab" * 32}),
                    name=EVIL)
-    s.set_spectrum("ir", Spectrum(np.linspace(450, 1600, 25), np.ones(25), technique="ir",
+    s.load("ir", Spectrum(np.linspace(450, 1600, 25), np.ones(25), technique="ir",
                                   kind="peaks"))
     s.sample = EVIL
     return s
@@ -82,7 +82,7 @@ def test_html_is_offline(session):
 
 
 def test_html_names_ties_and_ruled_out(session):
-    session.set_spectrum("nmr", Spectrum(np.linspace(130, 150, 8), [12] * 5 + [6] * 3,
+    session.load("nmr", Spectrum(np.linspace(130, 150, 8), [12] * 5 + [6] * 3,
                                          technique="nmr", kind="peaks"))
     page = render_html(make_record(session))
     assert "tied with isomer 5: same NMR pattern (5x12+3x6)" in page

@@ -11,7 +11,8 @@ import pytest
 
 from cageprint.errors import FormulaError, SessionError
 from cageprint.evidence import Candidate
-from cageprint.session import Session, parse_cage_formula
+from cageprint.formula import parse_cage_formula
+from cageprint.session import Session
 from cageprint.spectra import Spectrum
 
 # hand-made candidates (invented counts) keep these tests independent of cage generation
@@ -43,9 +44,9 @@ def uv_peaks():
 def session():
     s = Session("C78")
     s.set_candidates(CANDS)
-    s.set_spectrum("nmr", nmr_peaks(), name="fraction-b.txt")
-    s.set_spectrum("ir", ir_peaks())
-    s.set_spectrum("uvvis", uv_peaks())
+    s.load("nmr", nmr_peaks(), name="fraction-b.txt")
+    s.load("ir", ir_peaks())
+    s.load("uvvis", uv_peaks())
     return s
 
 
@@ -92,14 +93,15 @@ def test_weight_and_unchanged_threshold_are_cheap(session):
     session.set_threshold("ir", "snr", 5.0)      # same value again: nothing dropped
     _ = session.ranking
     assert session.stats["rank"] == before["rank"] + 1
-    assert session.stats["observe:ir"] == before["observe:ir"] + 1
+    # 5.0 is the S/N in use already (the default): setting it recomputes nothing
+    assert session.stats["observe:ir"] == before["observe:ir"]
     assert session.stats["compare:nmr"] == before["compare:nmr"]
     assert session.weights["uvvis"] == 0.0
 
 
 def test_new_spectrum_and_unload(session):
     _ = session.ranking
-    session.set_spectrum("nmr", nmr_peaks((4,) * 18 + (2,) * 3, seed=4))
+    session.load("nmr", nmr_peaks((4,) * 18 + (2,) * 3, seed=4))
     assert session.ranking.rows[0].candidate.isomer == 2
     session.unload("nmr")
     assert "nmr" not in session.ranking.with_data
@@ -122,10 +124,11 @@ def test_save_load_round_trip(session, tmp_path):
     session.set_weight("raman", 0.5)
     r1 = session.ranking
     p = session.save(tmp_path / "s.json")
-    s2 = Session.load(p)
+    s2 = Session.restore(p)
     assert isinstance(s2, Session)
     assert s2.ranking == r1
-    assert s2.thresholds("nmr") == {"region": (128, 152)}
+    assert s2.thresholds("nmr")["region"] == (128, 152)
+    assert s2.settings("nmr").changed() == {"region": (128, 152)}
     assert s2.weights == session.weights
     assert s2.sample == "fraction B"
     assert s2.sources["nmr"] == "fraction-b.txt"
@@ -163,8 +166,8 @@ def test_errors_are_pinned(session, tmp_path):
         session.set_threshold("nmr", "colour", 1)
     with pytest.raises(SessionError, match="weight must be a finite number >= 0; got -1"):
         session.set_weight("ir", -1)
-    with pytest.raises(SessionError, match=r"set_spectrum\('ir'\): the spectrum is a 'nmr' "):
-        session.set_spectrum("ir", nmr_peaks())
+    with pytest.raises(SessionError, match=r"load\('ir'\): the spectrum is a 'nmr' "):
+        session.load("ir", nmr_peaks())
     with pytest.raises(SessionError, match="ranking: no candidates; call set_formula"):
         _ = Session().ranking
     with pytest.raises(SessionError, match="set_candidates: no formula set"):
@@ -172,11 +175,11 @@ def test_errors_are_pinned(session, tmp_path):
     bad = tmp_path / "bad.json"
     bad.write_text("{not json")
     with pytest.raises(SessionError, match="bad.json, line 1: not a JSON session file"):
-        Session.load(bad)
+        Session.restore(bad)
     bad.write_text('{"format": "other"}')
     with pytest.raises(SessionError, match="expected format 'cageprint-session/1'; got "
                                            "'other'"):
-        Session.load(bad)
+        Session.restore(bad)
     with pytest.raises(FormulaError, match="formula 'C61': a fullerene cage has an even "
                                            "number of carbons"):
         parse_cage_formula("C61")
@@ -186,17 +189,20 @@ def test_errors_are_pinned(session, tmp_path):
 
 def test_formula_from_mass_species(monkeypatch):
     # the mass step fixes n when no formula was given (fragments ignored)
-    from types import SimpleNamespace as sp
+    import dataclasses
 
-    from cageprint import session as session_mod
+    from cageprint.techniques import registry
+    from cageprint.techniques.mass import MassObservation, MassSpecies
 
-    obs = sp(species=(sp(formula="C76", cage_n=76, cage_charge=0, kind="fragment",
-                         relative_abundance=1.0),
-                      sp(formula="C78", cage_n=78, cage_charge=0, kind="cage",
-                         relative_abundance=0.8)))
-    monkeypatch.setitem(session_mod._OBSERVE, "mass", lambda spectrum, **kw: obs)
+    def species(formula, n, kind, abundance):
+        return MassSpecies(formula, 1, 12.0 * n, abundance, 0.0, 1.0, n, 0, kind)
+
+    obs = MassObservation((species("C76", 76, "fragment", 1.0), species("C78", 78, "cage", 0.8)),
+                          (), np.zeros(0), np.zeros(0))
+    fake = dataclasses.replace(registry.get("mass"), observe=lambda spectrum, settings: obs)
+    monkeypatch.setitem(registry._REGISTRY, "mass", fake)
     s = Session()
-    s.set_spectrum("mass", Spectrum([936.0], [1.0], technique="mass", kind="peaks"))
+    s.load("mass", Spectrum([936.0], [1.0], technique="mass", kind="peaks"))
     assert s.formula == "C78" and s.n == 78
 
 
@@ -210,19 +216,28 @@ def test_endohedral_cage_charge_from_formula():
 
 
 def test_threshold_change_counted_by_wrapping_the_functions(session, monkeypatch):
-    # count real calls (not only the session's own counters)
-    from cageprint import session as session_mod
+    # count real calls (not only the session's own counters): wrap every registry entry's
+    # observe and compare
+    import dataclasses
+
+    from cageprint.techniques import registry
 
     calls = Counter()
-    for table, kind in ((session_mod._OBSERVE, "observe"), (session_mod._COMPARE, "compare")):
-        for t, fn in list(table.items()):
-            def counted(fn, key):
-                @functools.wraps(fn)           # keeps the signature the session reads
-                def wrapped(*a, **k):
-                    calls[key] += 1
-                    return fn(*a, **k)
-                return wrapped
-            monkeypatch.setitem(table, t, counted(fn, f"{kind}:{t}"))
+
+    def counted(fn, key):
+        @functools.wraps(fn)
+        def wrapped(*a, **k):
+            calls[key] += 1
+            return fn(*a, **k)
+        return wrapped
+
+    for tech in registry.techniques():
+        changes = {"observe": counted(tech.observe, f"observe:{tech.key}")}
+        if tech.compare is not None:
+            changes["compare"] = counted(tech.compare, f"compare:{tech.key}")
+        if tech.compare_all is not None:
+            changes["compare_all"] = counted(tech.compare_all, f"compare_all:{tech.key}")
+        monkeypatch.setitem(registry._REGISTRY, tech.key, dataclasses.replace(tech, **changes))
     _ = session.ranking
     calls.clear()
     session.set_threshold("uvvis", "onset_fraction", 0.02)
@@ -232,3 +247,6 @@ def test_threshold_change_counted_by_wrapping_the_functions(session, monkeypatch
     session.set_weight("nmr", 2.0)
     _ = session.ranking
     assert dict(calls) == {}
+    session.set_threshold("nmr", "integral_tol", 0.2)
+    _ = session.ranking
+    assert dict(calls) == {"compare_all:nmr": 1}

@@ -129,8 +129,8 @@ def test_c60_ir_four_bands_and_one_nmr_line_put_ih_first_of_1812():
     s = Session("C60")
     s.set_candidates(ipr=False)
     assert len(s.candidates) == 1812
-    s.set_spectrum("ir", Spectrum(C60_IR, [1.0, 0.4, 0.3, 0.35], technique="ir", kind="peaks"))
-    s.set_spectrum("nmr", Spectrum([C60_NMR], [1.0], technique="nmr", kind="peaks"))
+    s.load("ir", Spectrum(C60_IR, [1.0, 0.4, 0.3, 0.35], technique="ir", kind="peaks"))
+    s.load("nmr", Spectrum([C60_NMR], [1.0], technique="nmr", kind="peaks"))
     r = s.ranking
     top = r.top()
     assert len(top) == 1

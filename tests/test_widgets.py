@@ -45,7 +45,7 @@ def _nmr_profile(seed: int = 3) -> Spectrum:
 def session():
     s = Session()
     s.set_candidates(CANDIDATES)
-    s.set_spectrum("nmr", _nmr_profile(), name="invented.jdx")
+    s.load("nmr", _nmr_profile(), name="invented.jdx")
     return s
 
 
@@ -241,7 +241,7 @@ def test_a_peak_list_is_drawn_as_sticks_and_counted():
     s = Session()
     s.set_candidates(CANDIDATES)
     lines = Spectrum(131.0 + np.arange(19), np.full(19, 4.0), technique="nmr", kind="peaks")
-    s.set_spectrum("nmr", lines)
+    s.load("nmr", lines)
     panel = ComparisonPanel(s, "nmr", chosen=[1, 2])
     x = np.array(panel.fig.data[0].x, dtype=float)
     assert x.size == 3 * 19 and np.isnan(x[2::3]).all()
@@ -257,3 +257,19 @@ def test_chooser_fused_pentagon_filter_on_all_isomers():
     chooser.fused.value = fused[0]
     assert all(r["fused pentagons"] == fused[0] for r in chooser.visible_rows())
     assert "isomers of C28" in chooser.table.value
+
+
+def test_panel_shows_the_threshold_the_session_used(session):
+    # regression: with S/N 8 in the session, the dropdown showed 10 and the caption said
+    # snr=10 while the observation used 8
+    session.set_threshold("nmr", "snr", 8)
+    panel = ComparisonPanel(session, "nmr")
+    assert panel.snr.value == 8.0 and ("8", 8.0) in panel.snr.options
+    assert panel.observation.thresholds["snr"] == 8.0
+    caption = re.search(r"<caption>(.*?)</caption>", panel.table.value).group(1)
+    assert "snr=8," in caption and "snr=10" not in caption
+    session.set_threshold("nmr", "snr", 20)  # changed elsewhere: the panel follows
+    panel.update()
+    assert panel.snr.value == 20.0 and "snr=20," in panel.table.value
+    panel.snr.value = 50.0  # and the other way round
+    assert session.settings("nmr").snr == 50.0

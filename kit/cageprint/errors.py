@@ -17,6 +17,7 @@ __all__ = [
     "FormulaError",
     "EvidenceError",
     "SessionError",
+    "SettingsError",
     "NotebookRunError",
 ]
 
@@ -72,6 +73,10 @@ class EvidenceError(CageprintError):
 
 class SessionError(CageprintError):
     """A session could not be saved, loaded or updated."""
+
+
+class SettingsError(CageprintError):
+    """A setting (threshold or option) that is unknown or has a value out of its range."""
 
 
 class NotebookRunError(CageprintError):

@@ -32,8 +32,12 @@ from typing import Any
 
 import numpy as np
 
-from .errors import SessionError
-from .evidence import TECHNIQUE_ORDER, Ranking, _plain
+from .cage import Cage
+from .errors import CageprintError, SessionError
+from .evidence import Ranking, label
+from .plain import plain
+from .techniques import registry
+from .techniques.nmr import estimated_stick_spectrum
 
 __all__ = [
     "RECORD_FORMAT",
@@ -54,7 +58,6 @@ RECORD_FORMAT = "cageprint-record/1"
 REPORT_MAX_ROWS = 200
 
 _LIBRARIES = ("cageprint", "numpy", "scipy", "networkx", "pandas")
-_NAMES = {"mass": "Mass", "nmr": "13C NMR", "ir": "IR", "raman": "Raman", "uvvis": "UV-vis"}
 
 
 def atomic_write_text(path: str | Path, text: str) -> Path:
@@ -127,14 +130,13 @@ def make_record(session: Any, *, sample: str | None = None) -> dict[str, Any]:
     ranking = session.ranking
     inputs: dict[str, Any] = {}
     observations: dict[str, Any] = {}
-    for t in TECHNIQUE_ORDER:
+    for t in session.techniques_with_data():
         spec = session.spectra.get(t)
-        if spec is None:
-            continue
-        sha, of = _checksum(spec)
-        inputs[t] = {"source": session.sources.get(t, ""), "sha256": sha, "sha256_of": of,
-                     "format": str(dict(spec.meta).get("format", "")), "kind": spec.kind,
-                     "points": len(spec)}
+        if spec is not None:
+            sha, of = _checksum(spec)
+            inputs[t] = {"source": session.sources.get(t, ""), "sha256": sha,
+                         "sha256_of": of, "format": str(dict(spec.meta).get("format", "")),
+                         "kind": spec.kind, "points": len(spec)}
         obs = session.observation(t)
         if hasattr(obs, "to_dict"):
             observations[t] = obs.to_dict()
@@ -145,7 +147,9 @@ def make_record(session: Any, *, sample: str | None = None) -> dict[str, Any]:
         "formula": session.formula, "cage_charge": session.cage_charge, "ipr": session.ipr,
         "n_candidates": len(session.candidates),
         "inputs": inputs,
-        "thresholds": _plain(session.thresholds()),
+        "settings": plain({t: session.settings(t).values() for t in ranking.techniques}),
+        "thresholds": plain({t: c for t in ranking.techniques
+                             if (c := session.settings(t).changed())}),
         "weights": dict(ranking.weights),
         "versions": _versions(),
         "observations": observations,
@@ -155,7 +159,7 @@ def make_record(session: Any, *, sample: str | None = None) -> dict[str, Any]:
 
 def save_record(record: Mapping[str, Any], path: str | Path) -> Path:
     """Write a record as JSON, atomically."""
-    text = json.dumps(_plain(record), indent=1, default=str)
+    text = json.dumps(plain(record), indent=1, default=str)
     return atomic_write_text(path, text + "\n")
 
 
@@ -275,28 +279,25 @@ def _e(value: Any) -> str:
 
 
 def _x_label(t: str) -> str:
-    return {"nmr": "ppm", "ir": "cm-1", "raman": "cm-1", "uvvis": "nm", "mass": "m/z"}[t]
+    return registry.get(t).x_unit if t in registry.keys() else ""
 
 
 def _figure_for(t: str, session: Any, sticks: Sequence[tuple[float, float]]) -> str:
     spec = session.spectra[t]
     obs = session.observation(t)
-    marks: list[float] = []
-    for attr in ("positions", "bands_nm"):
-        marks = list(getattr(obs, attr, ()) or ())
-        if marks:
-            break
+    tech = registry.get(t)
+    marks = [float(m) for m in tech.marks(obs)]
     x, y = spec.x, spec.y
     if t == "nmr":
         lo, hi = obs.region if hasattr(obs, "region") else (x.min(), x.max())
         m = (x >= lo - 5) & (x <= hi + 5)
         if m.sum() >= 1:
             x, y = x[m], y[m]
-    title = f"{_NAMES[t]}: {session.sources.get(t, '') or 'measured'}"
+    title = f"{tech.label}: {session.sources.get(t, '') or 'measured'}"
     if sticks and t == "nmr":
         title += " (below: estimated stick spectrum of the first-ranked candidate)"
     return svg_spectrum(x, y, kind=spec.kind, marks=marks, sticks=sticks if t == "nmr" else (),
-                        reverse_x=t in ("nmr", "ir"), x_label=_x_label(t), title=title)
+                        reverse_x=tech.reverse_x, x_label=_x_label(t), title=title)
 
 
 def _observation_summary(t: str, o: Mapping[str, Any]) -> str:
@@ -375,37 +376,37 @@ def render_html(record: Mapping[str, Any], *, session: Any = None,
     # inputs
     out.append("<h2>Inputs</h2><table><tr><th>technique</th><th>source</th><th>format</th>"
                "<th>points</th><th>sha256</th></tr>")
-    for t in TECHNIQUE_ORDER:
+    for t in ranking.techniques:
         inp = record.get("inputs", {}).get(t)
         if inp is None:
-            out.append(f"<tr><td>{_NAMES[t]}</td><td colspan='4' class='note'>no data</td></tr>")
+            out.append(f"<tr><td>{_e(label(t))}</td><td colspan='4' class='note'>no data</td></tr>")
             continue
-        out.append(f"<tr><td>{_NAMES[t]}</td><td>{_e(inp.get('source'))}</td>"
+        out.append(f"<tr><td>{_e(label(t))}</td><td>{_e(inp.get('source'))}</td>"
                    f"<td>{_e(inp.get('format'))}</td><td>{_e(inp.get('points'))}</td>"
                    f"<td><code>{_e(inp.get('sha256'))}</code></td></tr>")
     out.append("</table>")
-    w = ", ".join(f"{_NAMES[t]} {ranking.weights.get(t, 0):g}" for t in TECHNIQUE_ORDER)
+    w = ", ".join(f"{_e(label(t))} {ranking.weights.get(t, 0):g}" for t in ranking.techniques)
     out.append(f"<p class='note'>Weights: {_e(w)}. Scores are log-likelihood-like "
                "(0 = perfect fit, more negative = worse); candidates whose overall scores "
                f"agree within {ranking.tie_tol:g} share a rank.</p>")
     th = record.get("thresholds", {})
     set_th = {t: v for t, v in th.items() if v}
     if set_th:
-        items = "; ".join(f"{_NAMES.get(t, t)}: " + ", ".join(f"{k} = {v}" for k, v in v.items())
+        items = "; ".join(f"{label(t)}: " + ", ".join(f"{k} = {v}" for k, v in v.items())
                           for t, v in set_th.items())
         out.append(f"<p class='note'>Thresholds changed from the defaults: {_e(items)}</p>")
     obs = record.get("observations", {})
     if obs:
         out.append("<h2>What was observed</h2><ul>")
-        for t in TECHNIQUE_ORDER:
+        for t in ranking.techniques:
             o = obs.get(t)
             if o:
-                out.append(f"<li>{_NAMES[t]}: {_e(_observation_summary(t, o))}</li>")
+                out.append(f"<li>{_e(label(t))}: {_e(_observation_summary(t, o))}</li>")
         out.append("</ul>")
     # figures
     figs: list[str] = []
     if session is not None:
-        for t in TECHNIQUE_ORDER:
+        for t in ranking.techniques:
             if t in session.spectra:
                 figs.append(_figure_for(t, session, nmr_sticks))
     for title, frag in (figures_html or {}).items():
@@ -415,8 +416,8 @@ def render_html(record: Mapping[str, Any], *, session: Any = None,
     # table
     out.append("<h2>Ranked candidates</h2><table><tr><th>rank</th><th>isomer</th>"
                "<th>point group</th><th>13C pattern</th><th>score</th><th>verdict</th>")
-    for t in TECHNIQUE_ORDER:
-        out.append(f"<th>{_NAMES[t]}</th>")
+    for t in ranking.techniques:
+        out.append(f"<th>{_e(label(t))}</th>")
     out.append("<th>why</th></tr>")
     for r in ranking.rows[:REPORT_MAX_ROWS]:
         c = r.candidate
@@ -424,7 +425,7 @@ def render_html(record: Mapping[str, Any], *, session: Any = None,
         out.append(f"<tr class='{cls}'><td>{r.rank}</td><td>{_e(c.isomer)}</td>"
                    f"<td>{_e(c.point_group)}</td><td>{_e(c.pattern)}</td>"
                    f"<td>{r.score:.2f}</td><td>{_e(r.verdict)}</td>")
-        for t in TECHNIQUE_ORDER:
+        for t in ranking.techniques:
             v = r.verdicts[t]
             cell = _e(v.verdict) if v.verdict == "no data" else f"{_e(v.verdict)} ({v.score:.2f})"
             out.append(f"<td>{cell}</td>")
@@ -469,17 +470,12 @@ def write_report(session: Any, path: str | Path, *, record_path: str | Path | No
 
 def first_candidate_sticks(session: Any) -> list[tuple[float, float]]:
     """Estimated 13C sticks (ppm, carbons) of the first-ranked candidate, or [] if unavailable."""
-    from .errors import CageprintError
-
     first = session.ranking.top()
     if "nmr" not in session.spectra or not first or not first[0].candidate.spiral:
         return []
     try:
-        from .cage import Cage
-        from .techniques.nmr import estimated_stick_spectrum
-
         c = first[0].candidate
         st = estimated_stick_spectrum(Cage.from_spiral(c.n, c.spiral))
-    except (CageprintError, ImportError):
+    except CageprintError:
         return []
     return list(zip(st.positions, st.heights, strict=True))

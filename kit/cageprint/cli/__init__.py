@@ -50,7 +50,7 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"cageprint {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
-    for name, module in COMMANDS.items():
+    for module in COMMANDS.values():
         mod = _load(module)
         if mod is None:
             continue

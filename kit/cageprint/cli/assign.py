@@ -8,12 +8,13 @@ import sys
 from typing import Any
 
 from ..errors import SessionError
+from ..report import first_candidate_sticks, make_record, save_record, save_report
+from ..session import Session
+from ..settings import Spec
+from ..techniques import registry
 
-_FILES = (("mass", "--ms"), ("nmr", "--nmr"), ("ir", "--ir"), ("raman", "--raman"),
-          ("uvvis", "--uv"))
 
-
-def add_parser(sub) -> argparse.ArgumentParser:
+def add_parser(sub: Any) -> argparse.ArgumentParser:
     p = sub.add_parser(
         "assign",
         help="rank the candidate cages of a formula against measured spectra",
@@ -26,15 +27,19 @@ def add_parser(sub) -> argparse.ArgumentParser:
     p.add_argument("--cage-charge", type=int, default=None, metavar="Q",
                    help="formal charge of the cage (default from the formula: 0 for an "
                    "empty cage, -6 for Sc3N@C80)")
-    for tech, flag in _FILES:
-        p.add_argument(flag, dest=tech, metavar="FILE", default=None,
-                       help=f"{'UV-vis' if tech == 'uvvis' else tech} spectrum or peak list")
+    for tech in registry.techniques():
+        if tech.cli_flag:
+            what = "spectrum or peak list" if tech.needs_spectrum else "input file"
+            p.add_argument(tech.cli_flag, dest=f"input_{tech.key}", metavar="FILE",
+                           default=None, help=f"{tech.label} {what}")
     p.add_argument("--solvent", default=None, help="NMR solvent whose 13C lines are excluded")
     p.add_argument("--weight", action="append", default=[], metavar="TECH=W",
-                   help="weight of a technique, e.g. --weight uvvis=0 (repeatable)")
+                   help="weight of a technique, e.g. --weight uvvis=0 (repeatable); "
+                   "techniques: " + ", ".join(registry.keys()))
     p.add_argument("--set", dest="settings", action="append", default=[],
                    metavar="TECH.NAME=VALUE",
-                   help="a threshold or option, e.g. --set nmr.snr=8 (repeatable)")
+                   help="a setting, e.g. --set nmr.snr=8 (repeatable; see the settings of "
+                   "each technique in the record, or cageprint.techniques.thresholds)")
     p.add_argument("--sample", default="", help="sample name written into record and report")
     p.add_argument("--top", type=int, default=30, metavar="N",
                    help="rows printed in the readable table (default 30; CSV has all)")
@@ -46,26 +51,6 @@ def add_parser(sub) -> argparse.ArgumentParser:
     return p
 
 
-def _value(text: str) -> Any:
-    if "," in text:
-        return tuple(_value(t) for t in text.split(",") if t.strip())
-    low = text.strip().lower()
-    if low in ("true", "yes"):
-        return True
-    if low in ("false", "no"):
-        return False
-    if low in ("none", ""):
-        return None
-    try:
-        return int(text)
-    except ValueError:
-        pass
-    try:
-        return float(text)
-    except ValueError:
-        return text
-
-
 def _split(item: str, flag: str, example: str) -> tuple[str, str]:
     if "=" not in item:
         raise SessionError(f"{flag} {item!r}: expected {example}")
@@ -73,10 +58,8 @@ def _split(item: str, flag: str, example: str) -> tuple[str, str]:
     return key.strip(), val.strip()
 
 
-def build_session(args) -> Any:
+def build_session(args: argparse.Namespace) -> Session:
     """The session the command works on (also used by tests)."""
-    from ..session import Session
-
     formula = args.formula.strip()
     if formula.isdigit():
         formula = f"C{formula}"
@@ -85,9 +68,10 @@ def build_session(args) -> Any:
     for item in args.weight:
         tech, val = _split(item, "--weight", "TECH=W such as uvvis=0.5")
         try:
-            s.set_weight(tech, float(val))
+            weight = float(val)
         except ValueError:
             raise SessionError(f"--weight {item!r}: W must be a number; got {val!r}") from None
+        s.set_weight(tech, weight)
     if args.solvent:
         s.set_threshold("nmr", "solvent", args.solvent)
     for item in args.settings:
@@ -95,18 +79,43 @@ def build_session(args) -> Any:
         if "." not in key:
             raise SessionError(f"--set {item!r}: expected TECH.NAME=VALUE such as nmr.snr=8")
         tech, name = key.split(".", 1)
-        s.set_threshold(tech, name, _value(val))
-    for tech, _flag in _FILES:
-        path = getattr(args, tech)
+        names = s.threshold_names(tech)
+        if name not in names:
+            s.set_threshold(tech, name, None)  # raises, naming the known settings
+        s.set_threshold(tech, name, s.settings(tech).parse(name, val))
+    for tech in registry.techniques():
+        path = getattr(args, f"input_{tech.key}", None)
         if path:
-            s.load(tech, path)
+            s.load(tech.key, path)
     s.set_candidates(ipr=args.ipr)
     return s
 
 
-def _print_table(ranking, top: int, out) -> None:
+def _setting_text(value: Any, spec: Spec) -> str:
+    if value is None:
+        return "none"
+    if isinstance(value, tuple) and spec.kind == "span":
+        return f"{value[0]:g}-{value[1]:g}" + (f" {spec.unit}" if spec.unit else "")
+    if isinstance(value, float):
+        return f"{value:g}" + (f" {spec.unit}" if spec.unit else "")
+    return str(value)
+
+
+def settings_used(session: Session, technique: str) -> str:
+    """The main settings a technique used (its widget controls, and any changed), in words."""
+    settings = session.settings(technique)
+    changed = settings.changed()
+    parts = [f"{name}={_setting_text(value, spec)}"
+             for name, spec in settings.specs().items()
+             if spec.control or name in changed
+             for value in [getattr(settings, name)]]
+    return ", ".join(parts)
+
+
+def _print_table(session: Session, top: int, out: Any) -> None:
+    ranking = session.ranking
     techs = ranking.techniques
-    short = {"mass": "MS", "nmr": "NMR", "ir": "IR", "raman": "Raman", "uvvis": "UV"}
+    short = {t: registry.get(t).short for t in techs}
     head = ["rank", "formula", "isomer", "pg", "score", "verdict"] + [short[t] for t in techs]
     rows = []
     for r in ranking.rows[:top]:
@@ -131,6 +140,8 @@ def _print_table(ranking, top: int, out) -> None:
         print("no data: " + ", ".join(short[t] for t in no), file=out)
     print("weights: " + ", ".join(f"{short[t]} {ranking.weights[t]:g}" for t in techs),
           file=out)
+    for t in ranking.with_data:
+        print(f"settings used, {short[t]}: {settings_used(session, t)}", file=out)
     first = ranking.top()
     if first:
         r = first[0]
@@ -143,9 +154,7 @@ def _print_table(ranking, top: int, out) -> None:
         print("every candidate is ruled out by the evidence as weighted", file=out)
 
 
-def run(args) -> int:
-    from ..report import first_candidate_sticks, make_record, save_record, save_report
-
+def run(args: argparse.Namespace) -> int:
     session = build_session(args)
     ranking = session.ranking
     out = sys.stdout
@@ -156,7 +165,7 @@ def run(args) -> int:
         writer.writeheader()
         writer.writerows(table)
     else:
-        _print_table(ranking, args.top, out)
+        _print_table(session, args.top, out)
     if args.record or args.report:
         record = make_record(session)
         if args.record:

@@ -10,17 +10,27 @@ from typing import Any
 import numpy as np
 
 from ..errors import SpectrumError
+from ..plain import plain as _plain
 
-#: technique key -> the x unit the kit works in
-TECHNIQUES: Mapping[str, str] = MappingProxyType(
-    {
-        "mass": "m/z",
-        "ir": "cm-1",
-        "raman": "cm-1",
-        "nmr": "ppm",
-        "uvvis": "nm",
-    }
-)
+_UNITS: dict[str, str] = {"mass": "m/z", "ir": "cm-1", "raman": "cm-1", "nmr": "ppm",
+                          "uvvis": "nm"}
+#: technique key -> the x unit the kit works in (a read-only view; the technique
+#: registry, :mod:`cageprint.techniques.registry`, adds the techniques it registers)
+TECHNIQUES: Mapping[str, str] = MappingProxyType(_UNITS)
+
+
+def register_technique(technique: str, x_unit: str) -> None:
+    """Let spectra of a new technique be made and read (called by the technique registry)."""
+    _UNITS[str(technique)] = str(x_unit)
+
+
+def unregister_technique(technique: str) -> None:
+    """Forget a technique added by :func:`register_technique` (the built-in ones stay)."""
+    if technique not in _BUILT_IN:
+        _UNITS.pop(technique, None)
+
+
+_BUILT_IN = frozenset(_UNITS)
 
 
 def _frozen_array(a, name: str) -> np.ndarray:
@@ -141,16 +151,3 @@ class Spectrum:
         )
         fields.update(changes)
         return Spectrum(**fields)
-
-
-def _plain(obj: Any) -> Any:
-    """Nested mappings, sequences and numpy values as plain Python (for JSON)."""
-    if isinstance(obj, Mapping):
-        return {str(k): _plain(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_plain(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return obj.tolist()
-    if isinstance(obj, np.generic):
-        return obj.item()
-    return obj

@@ -17,8 +17,10 @@ from typing import Any
 
 import numpy as np
 
+from ..candidate import Candidate, transition_energies
 from ..errors import EvidenceError, SpectrumError
-from ..evidence import Candidate, TechniqueVerdict, _plain
+from ..plain import plain as _plain
+from ..verdict import TechniqueVerdict
 from .vibrational import find_bands
 
 __all__ = [
@@ -169,13 +171,11 @@ def _gap_and_transitions(prediction: Any) -> tuple[float, tuple[float, ...]]:
         return prediction.gap_beta, prediction.transitions_beta
     if isinstance(prediction, (int, float)):
         return float(prediction), ()
-    from ..evidence import _transition_energies
-
     elec = getattr(prediction, "elec", prediction)
     gap = getattr(elec, "gap_beta", None)
     if gap is None:
         raise EvidenceError("compare_uvvis: the prediction has no gap_beta")
-    return float(gap), _transition_energies(elec)
+    return float(gap), transition_energies(elec)
 
 
 def compare_uvvis(

@@ -19,10 +19,12 @@ from typing import Any
 
 import numpy as np
 
+from ..candidate import Candidate
 from ..errors import FormulaError, SpectrumError
-from ..formula import Formula, parse_formula
+from ..formula import CLUSTER_CHARGES, Formula, cage_charge, parse_formula
 from ..isotopes import C13_NATURAL, Envelope, _check_charge, isotope_envelope, neutral_mass
 from ..spectra.model import Spectrum
+from ..verdict import RULED_OUT_SCORE, TechniqueVerdict
 from .mass_match import (
     CAGE_SIZES,
     ENVELOPE_MIN_SCORE,
@@ -56,12 +58,16 @@ __all__ = [
     "MassMatch",
     "observe_mass",
     "compare_mass",
+    "mass_verdict",
+    "MASS_MINOR_ABUNDANCE",
     "predict_mass",
     "score_formula",
     "cage_charge",
     "candidate_formulas",
 ]
 
+#: a species below this relative abundance is "minor" (its cage only "possible")
+MASS_MINOR_ABUNDANCE = 0.1
 #: a C_n ladder member used for calibration must fit this well
 CALIBRANT_MIN_SCORE = 0.97
 #: largest calibration offset searched for, in m/z units
@@ -72,36 +78,6 @@ CENTROID_UNCERTAINTY_FACTOR = 2.0
 PEAK_LIST_STEP = 0.1
 #: a species is a C2-loss fragment when at most this fraction of its C2-richer neighbour
 FRAGMENT_MAX_RATIO = 0.25
-
-# Formal charges of encapsulated atoms and cluster anions, used for the charge the
-# cluster donates to the cage (Sc3N@C80 -> (Sc3+)3 N3- -> cage 6-; La@C82 -> cage 3-).
-# From memory / common practice, no source: trivalent rare earths, Sc and Y; divalent
-# Sm, Tm (in mono-metallofullerenes), alkaline earths and Ti; monovalent alkali metals.
-CLUSTER_CHARGES = MappingProxyType({
-    "Sc": 3, "Y": 3, "La": 3, "Ce": 3, "Pr": 3, "Nd": 3, "Gd": 3, "Tb": 3, "Dy": 3,
-    "Ho": 3, "Er": 3, "Lu": 3, "Sm": 2, "Tm": 2, "Ca": 2, "Sr": 2, "Ba": 2, "Ti": 2,
-    "Li": 1, "K": 1, "N": -3, "C": -1, "O": -2, "S": -2, "H": 1,
-})
-
-
-
-def cage_charge(formula: str | Formula) -> int:
-    """Formal charge on the cage of an endohedral formula (0 for a plain one).
-
-    The cluster's formal charge is the sum of :data:`CLUSTER_CHARGES` over its
-    atoms; a C2 unit counts as C2(2-).
-
-    Examples
-    --------
-    >>> cage_charge("Sc3N@C80"), cage_charge("La@C82"), cage_charge("Y2C2@C82"), cage_charge("C60")
-    (-6, -3, -4, 0)
-    """
-    f = parse_formula(formula)
-    total = 0
-    for e, n in f.inner:
-        total += CLUSTER_CHARGES.get(e, 0) * n
-    return -total
-
 
 # ------------------------------------------------------------------ result types
 
@@ -541,3 +517,50 @@ def compare_mass(predicted, observed: MassObservation, *, c13=None,
                 best = m
         out.append(best)
     return out
+
+
+def mass_verdict(candidate: Candidate, observation: MassObservation, *,
+                 minor_abundance: float = MASS_MINOR_ABUNDANCE) -> TechniqueVerdict:
+    """Mass evidence on one candidate: the cage sizes (and cage charges) found fix ``n``.
+
+    Fragment ions do not vouch for a cage; a species weaker than
+    ``minor_abundance`` (relative to the strongest) makes its cage only "possible".
+
+    Examples
+    --------
+    >>> from cageprint.techniques.mass_synthetic import synthetic_mass_spectrum
+    >>> obs = observe_mass(synthetic_mass_spectrum([("C78", 1, 1.0)], seed=3))
+    >>> c78 = Candidate("C78", 78, 1, "D3", (6,) * 13)
+    >>> mass_verdict(c78, obs).verdict, mass_verdict(Candidate("C84", 84, 1, "D2"), obs).verdict
+    ('consistent', 'ruled out')
+    """
+    found = observation.species
+    if not found:
+        return TechniqueVerdict("mass", 0.0, "no data",
+                                ("the mass spectrum shows no cage species.",))
+    intact = [sp for sp in found if sp.kind != "fragment"]
+    names = ", ".join(sorted({sp.formula for sp in intact})) or "fragments only"
+    details = {"cage_sizes": sorted({sp.cage_n for sp in intact}),
+               "fragments": sorted({sp.formula for sp in found} - {sp.formula for sp in intact})}
+    mine = [sp for sp in intact if sp.cage_n == candidate.n]
+    n = candidate.n
+    if not mine:
+        if any(sp.cage_n == n for sp in found):
+            return TechniqueVerdict("mass", -6.0, "unlikely", (
+                f"mass spectrum shows {names}; a {n}-carbon cage appears only as a fragment "
+                "ion.",), details)
+        return TechniqueVerdict("mass", RULED_OUT_SCORE, "ruled out", (
+            f"mass spectrum shows {names}; none has a {n}-carbon cage.",), details)
+    charges = sorted({sp.cage_charge for sp in mine})
+    if candidate.cage_charge not in charges:
+        return TechniqueVerdict("mass", -6.0, "unlikely", (
+            f"mass spectrum shows a C{n} cage carrying charge "
+            f"{', '.join(str(c) for c in charges)}, the candidate is built for "
+            f"{candidate.cage_charge}.",), {**details, "cage_charges": charges})
+    strongest = max(sp.relative_abundance for sp in mine)
+    if strongest < minor_abundance:
+        return TechniqueVerdict("mass", -2.0, "possible", (
+            f"mass spectrum shows {names}; the {n}-carbon cage is a minor species "
+            f"({100 * strongest:.0f} % of the strongest).",), details)
+    return TechniqueVerdict("mass", 0.0, "consistent", (
+        f"mass spectrum shows {names}: a {n}-carbon cage is present.",), details)

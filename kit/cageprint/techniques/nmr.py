@@ -41,8 +41,10 @@ from typing import Any
 
 import numpy as np
 
+from ..candidate import Candidate
 from ..errors import EvidenceError, SpectrumError
-from ..evidence import Candidate, TechniqueVerdict, _plain
+from ..plain import plain as _plain
+from ..verdict import TechniqueVerdict
 from .nmr_match import _fit, _orbit_sizes, _partner_list
 from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
     ESTIMATE_C60_ANGLE_DEG,

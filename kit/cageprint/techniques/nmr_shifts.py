@@ -12,7 +12,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import EvidenceError
-from ..evidence import _plain
+from ..plain import plain as _plain
 
 __all__ = [
     "ESTIMATE_PPM_AT_C60",

@@ -16,8 +16,10 @@ from typing import Any
 
 import numpy as np
 
+from ..candidate import Candidate
 from ..errors import EvidenceError, SpectrumError
-from ..evidence import RULED_OUT_SCORE, Candidate, TechniqueVerdict, _plain
+from ..plain import plain as _plain
+from ..verdict import RULED_OUT_SCORE, TechniqueVerdict
 
 __all__ = [
     "IR_REGION",

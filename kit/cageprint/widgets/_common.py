@@ -9,6 +9,7 @@ from typing import Any
 
 import ipywidgets as w
 import plotly.graph_objects as go
+from IPython.display import HTML, display
 
 from ..errors import CageprintError
 
@@ -71,8 +72,6 @@ class Problem:
 def record(fig: go.Figure | None = None, table_html: str | None = None,
            title: str | None = None) -> None:
     """Show a static record: an HTML table and a plain figure that survive without a kernel."""
-    from IPython.display import HTML, display
-
     if title:
         display(HTML(f"<h4>{html.escape(title)}</h4>"))
     if table_html:
@@ -87,8 +86,6 @@ def conclude(summary: str, **facts: Any) -> None:
 
     The copy travels under :data:`CONCLUSION_MIME`; people see only the sentence.
     """
-    from IPython.display import display
-
     payload = {"summary": summary, **facts}
     display({CONCLUSION_MIME: json.loads(json.dumps(payload, default=str)),
              "text/plain": "Conclusion: " + summary}, raw=True)

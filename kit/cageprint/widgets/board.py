@@ -5,18 +5,19 @@ from __future__ import annotations
 import html
 import os
 import pathlib
+from typing import Any
 
 import ipywidgets as w
 
 from .. import figures
-from ..evidence import TECHNIQUE_ORDER
+from ..evidence import Ranking, label
+from ..session import Session
+from ..techniques import registry
 from . import _port
 from ._common import Problem
 
-_LABELS = {"mass": "mass", "nmr": "13C NMR", "ir": "IR", "raman": "Raman", "uvvis": "UV-vis"}
 
-
-def ranking_rows(ranking, limit: int | None = None) -> list[dict]:
+def ranking_rows(ranking: Ranking, limit: int | None = None) -> list[dict[str, Any]]:
     """Rows of the ranked table as the board and the static record show them."""
     rows = []
     for r in ranking.rows[:limit]:
@@ -25,22 +26,22 @@ def ranking_rows(ranking, limit: int | None = None) -> list[dict]:
              "point group": c.point_group, "score": round(r.score, 2), "verdict": r.verdict}
         for t in ranking.techniques:
             v = r.verdicts[t]
-            d[_LABELS[t]] = v.verdict
+            d[label(t)] = v.verdict
         d["tie"] = r.tie_reason
         d["reasons"] = " ".join(r.reasons)
         rows.append(d)
     return rows
 
 
-def ranking_html(ranking, limit: int | None = 50) -> str:
+def ranking_html(ranking: Ranking, limit: int | None = 50) -> str:
     """The ranked table as escaped HTML (``data-cp-table="ranking"``)."""
     cols = ["rank", "candidate", "point group", "score", "verdict",
-            *[_LABELS[t] for t in ranking.techniques], "tie", "reasons"]
+            *[label(t) for t in ranking.techniques], "tie", "reasons"]
     top = ", ".join(f"{r.candidate.formula} {r.candidate.isomer}" for r in ranking.top())
     return figures.html_table(ranking_rows(ranking, limit), cols, name="ranking", key="key",
                               highlight=[r.candidate.isomer for r in ranking.top()],
                               caption=f"rank 1: {top or 'none'}; weights " + ", ".join(
-                                  f"{_LABELS[t]} {ranking.weights[t]:g}"
+                                  f"{label(t)} {ranking.weights[t]:g}"
                                   for t in ranking.techniques),
                               max_rows=limit)
 
@@ -57,14 +58,15 @@ class AssignmentBoard:
         Base name of the exported files.
     """
 
-    def __init__(self, session, out_dir: str | os.PathLike = "results", name: str = "assignment"):
+    def __init__(self, session: Session, out_dir: str | os.PathLike = "results",
+                 name: str = "assignment"):
         self.session = session
         self.out_dir = pathlib.Path(out_dir)
         self.problem = Problem("cp-board-error")
-        wts = _port.weights(session)
-        self.weights = {t: w.FloatSlider(value=wts.get(t, 1.0), min=0.0, max=3.0, step=0.1,
-                                         description=_LABELS[t], continuous_update=False)
-                        for t in TECHNIQUE_ORDER}
+        wts = session.weights
+        self.weights = {t.key: w.FloatSlider(value=wts[t.key], min=0.0, max=3.0, step=0.1,
+                                             description=t.label, continuous_update=False)
+                        for t in registry.techniques()}
         for t, s in self.weights.items():
             s.add_class(f"cp-weight-{t}")
             s.observe(self._weight, names=["value"])

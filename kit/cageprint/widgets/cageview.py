@@ -2,20 +2,23 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import ipywidgets as w
+import plotly.graph_objects as go
 
 from .. import figures
+from ..cage import Cage
+from ..candidate import Candidate
 from ..errors import CageError
 from ..layout2d import schlegel_layout, schlegel_projection, tutte_layout
-from . import _port
+from ..session import Session
+from ..symmetry import fingerprint, symmetric_geometry
 from ._common import Problem, boxed, figure_widget, sync_figure
 
 
-def cage_figures(candidate) -> tuple:
+def cage_figures(candidate: Candidate) -> tuple[go.Figure, go.Figure]:
     """(3D figure, flat figure) of a candidate (built from its spiral)."""
-    from ..cage import Cage
-    from ..symmetry import fingerprint, symmetric_geometry
-
     cage = Cage.from_spiral(candidate.n, candidate.spiral)
     fp = fingerprint(cage)
     orbits = fp.nmr.orbits
@@ -42,9 +45,9 @@ class CageView:
         Candidate shown first (default: the first candidate).
     """
 
-    def __init__(self, session, isomer: int | None = None):
+    def __init__(self, session: Session, isomer: int | None = None):
         self.session = session
-        cands = _port.candidates(session)
+        cands = session.candidates
         self.problem = Problem("cp-cageview-error")
         opts = [(f"{c.formula} {c.isomer} ({c.point_group})", c.isomer) for c in cands]
         first = isomer if isomer is not None else (opts[0][1] if opts else None)
@@ -60,13 +63,13 @@ class CageView:
                           w.HBox([boxed(self.fig3d), boxed(self.fig2d)])])
         self.ui.add_class("cp-cageview")
 
-    def _candidate(self, isomer):
-        for c in _port.candidates(self.session):
+    def _candidate(self, isomer: int | None) -> Candidate | None:
+        for c in self.session.candidates:
             if c.isomer == isomer:
                 return c
         return None
 
-    def _changed(self, change) -> None:
+    def _changed(self, change: Any) -> None:
         try:
             f3, f2 = cage_figures(self._candidate(change["new"]))
         except Exception as exc:

@@ -2,10 +2,16 @@
 
 from __future__ import annotations
 
+from typing import Any
+
 import ipywidgets as w
 
 from .. import figures
-from . import _port
+from ..cage import Cage
+from ..candidate import Candidate
+from ..errors import CageprintError
+from ..session import Session
+from ..symmetry import character_table
 from ._common import Problem
 
 #: sort keys offered: label -> (row key, descending?)
@@ -20,11 +26,9 @@ _COLUMNS = ["isomer", "point group", "13C pattern", "lines", "IR", "Raman", "gap
 
 def _group_order(pg: str) -> int:
     """Rough size of a point group from its label, for sorting (no science relies on it)."""
-    from ..symmetry import character_table
-
     try:
         return int(character_table(pg).order)
-    except Exception:  # an unknown label sorts last
+    except CageprintError:  # an unknown label sorts last
         return 0
 
 
@@ -41,7 +45,7 @@ class CandidateChooser:
         IPR isomers only (default) or all isomers.
     """
 
-    def __init__(self, session, formula: str | None = None, ipr: bool = True):
+    def __init__(self, session: Session, formula: str | None = None, ipr: bool = True):
         self.session = session
         self.problem = Problem("cp-chooser-error")
         self.formula = w.Text(value=formula or session.formula or "", description="formula",
@@ -82,31 +86,30 @@ class CandidateChooser:
         """Isomer numbers picked for comparison."""
         return tuple(self.pick.value)
 
-    def _regenerate(self, _change) -> None:
+    def _regenerate(self, _change: Any) -> None:
         text = self.formula.value.strip()
         if not text:
             return
         try:
-            _port.set_formula(self.session, text, ipr=self.ipr.value)
+            self.session.set_formula(text)
+            self.session.set_candidates(ipr=self.ipr.value)
         except Exception as exc:  # shown in the widget, candidates left as they were
             self.problem.show(exc)
             return
         self.problem.clear()
         self._rebuild_rows()
 
-    def _fused_count(self, c) -> int:
+    def _fused_count(self, c: Candidate) -> int:
         if self.session.ipr:
             return 0
         if c.isomer not in self._fused:
-            from ..cage import Cage
-
             pairs = Cage.from_spiral(c.n, c.spiral).fused_pentagon_pairs  # a count
             self._fused[c.isomer] = int(pairs) if not hasattr(pairs, "__len__") else len(pairs)
         return self._fused[c.isomer]
 
     def _rebuild_rows(self) -> None:
         self._fused = {}
-        cands = _port.candidates(self.session)
+        cands = self.session.candidates
         self.rows = [{
             "isomer": c.isomer, "point group": c.point_group, "order": _group_order(c.point_group),
             "13C pattern": c.pattern, "lines": len(c.nmr_sizes), "ir": c.ir_count,
@@ -134,7 +137,7 @@ class CandidateChooser:
                                  r["isomer"]))
         return rows
 
-    def _redraw(self, change) -> None:
+    def _redraw(self, change: Any) -> None:
         rows = self.visible_rows()
         if change is None or change["owner"] is not self.pick:
             keep = [v for v in self.pick.value if any(r["isomer"] == v for r in rows)]

@@ -9,15 +9,15 @@ import pathlib
 import ipywidgets as w
 
 from .. import figures
-from ..spectra import TECHNIQUES
+from ..session import Session
+from ..spectra import Spectrum
+from ..techniques import registry
 from . import _port
 from ._common import Problem, boxed, figure_widget, sync_figure
 
 #: file endings offered in the picker
 SPECTRUM_SUFFIXES = (".jdx", ".dx", ".jcamp", ".csv", ".tsv", ".txt", ".mzml", ".peaks")
 _AUTO = "(from the file)"
-_LABELS = {"mass": "mass spectrum", "nmr": "13C NMR", "ir": "IR", "raman": "Raman",
-           "uvvis": "UV-vis"}
 
 
 class SpectrumLoader:
@@ -42,8 +42,8 @@ class SpectrumLoader:
         Show the loader's own plot (leave it out when a comparison panel shows the spectrum).
     """
 
-    def __init__(self, session, folder: str | os.PathLike = ".", technique: str | None = None,
-                 initial: str | None = None, plot: bool = True):
+    def __init__(self, session: Session, folder: str | os.PathLike = ".",
+                 technique: str | None = None, initial: str | None = None, plot: bool = True):
         self.session = session
         self.folder = pathlib.Path(folder)
         self.spectrum = None
@@ -59,7 +59,8 @@ class SpectrumLoader:
         self.upload = w.FileUpload(accept=",".join(SPECTRUM_SUFFIXES), multiple=False,
                                    description="upload")
         self.upload.add_class("cp-upload")
-        opts = [(_AUTO, "")] + [(_LABELS[t], t) for t in TECHNIQUES]
+        opts = [(_AUTO, "")] + [(t.label, t.key) for t in registry.techniques()
+                                if t.needs_spectrum]
         self.technique = w.Dropdown(options=opts, value=technique or "", description="technique")
         self.technique.add_class("cp-technique")
         self.info = w.HTML()
@@ -110,7 +111,7 @@ class SpectrumLoader:
         fmt = s.meta.get("format", "")
         self.info.value = (
             f'<span class="cp-found" data-technique="{s.technique}">'
-            f"{html.escape(self.source or '')}: {_LABELS.get(s.technique, s.technique)}, "
+            f"{html.escape(self.source or '')}: {html.escape(registry.get(s.technique).label)}, "
             f"x in {html.escape(s.x_unit)}, y as {html.escape(s.y_unit)}, {len(s)} points"
             f"{', ' + html.escape(str(fmt)) if fmt else ''}, {s.kind}</span>")
         new = figures.spectrum_figure(s, title=self.source)
@@ -140,7 +141,5 @@ class SpectrumLoader:
             self.load(self._read_from, name=self.source)
 
 
-def _placeholder():
-    from ..spectra import Spectrum
-
+def _placeholder() -> Spectrum:
     return Spectrum([0.0, 1.0], [0.0, 0.0], technique="ir", meta={"title": "no spectrum yet"})
