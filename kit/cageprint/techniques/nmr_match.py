@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import EvidenceError
-from ..evidence import Candidate
+from ..candidate import Candidate
 
 
 @functools.lru_cache(maxsize=256)
