@@ -15,8 +15,8 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import EvidenceError
 from ..candidate import Candidate
+from ..errors import EvidenceError
 
 
 @functools.lru_cache(maxsize=256)
