@@ -19,8 +19,6 @@ from dataclasses import dataclass, fields
 from types import MappingProxyType
 from typing import Any
 
-import pandas as pd
-
 from .candidate import Candidate
 from .errors import EvidenceError
 from .plain import plain
@@ -155,8 +153,10 @@ class Ranking:
             out.append(d)
         return out
 
-    def to_frame(self) -> pd.DataFrame:
+    def to_frame(self) -> Any:
         """The table as a pandas DataFrame (one row per candidate, in rank order)."""
+        import pandas as pd  # lazy: pandas takes ~0.5 s to import; only this table needs it
+
         return pd.DataFrame(self.table())
 
     def to_dict(self) -> dict[str, Any]:

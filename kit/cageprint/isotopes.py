@@ -317,6 +317,7 @@ class Envelope:
 
     def to_frame(self):
         """The envelope as a pandas DataFrame (mz, abundance, relative_abundance)."""
+        # lazy: pandas takes ~0.5 s to import; only the table output needs it
         import pandas as pd
 
         return pd.DataFrame(
@@ -524,6 +525,7 @@ def fit_c13(
     >>> round(fit_c13("C60", env.mz, env.abundance, 1).c13, 4)
     0.05
     """
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.optimize import minimize_scalar
 
     f = parse_formula(formula)

@@ -11,7 +11,8 @@ True
 
 from __future__ import annotations
 
-from .isomers import count_isomers, isomer_number, iter_isomers, iter_spirals
+from .isomers import count_isomers, isomer_rank, iter_spirals
+from .listing import isomer_number, iter_isomers
 from .model import Cage
 from .spiral import check_n, check_spiral
 
@@ -21,6 +22,7 @@ __all__ = [
     "iter_spirals",
     "count_isomers",
     "isomer_number",
+    "isomer_rank",
     "check_n",
     "check_spiral",
 ]

@@ -1,4 +1,4 @@
-"""All isomers of C_n in canonical-spiral order, and their isomer numbers.
+"""The spiral search: canonical spirals of C_n in order, and their ranks (isomer numbers).
 
 Notes
 -----
@@ -41,7 +41,6 @@ from __future__ import annotations
 
 import itertools
 import os
-import sys
 from collections import deque
 from collections.abc import Iterator
 from concurrent.futures import ThreadPoolExecutor
@@ -51,10 +50,9 @@ import numpy as np
 
 from ..errors import CageError
 from . import _kernels as K
-from .model import Cage
 from .spiral import check_n
 
-__all__ = ["iter_isomers", "iter_spirals", "count_isomers", "isomer_number"]
+__all__ = ["iter_spirals", "count_isomers", "isomer_rank"]
 
 #: spirals handed over per call of the compiled search (the first call hands fewer)
 BATCH = 4096
@@ -105,7 +103,7 @@ def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
     """Canonical spirals of C_n in lexicographic order, in batches.
 
     Yields (k, 12) int arrays of one-based pentagon positions.  This is the
-    bare search behind :func:`iter_isomers`, without building Cage objects.
+    bare search behind :func:`~cageprint.cage.iter_isomers`, without building Cage objects.
     For larger cages the search is split by the first faces of the spiral
     into parts searched by :data:`WORKERS` threads at once; the parts are
     handed over in order, so the output is the same.
@@ -147,57 +145,6 @@ def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
         pool.shutdown(wait=True, cancel_futures=True)
 
 
-def iter_isomers(n: int, ipr: bool = False, progress: bool = False) -> Iterator[Cage]:
-    """Every isomer of C_n (or every IPR isomer), numbered, in canonical-spiral order.
-
-    A generator: isomers stream out as the search finds them.
-
-    Parameters
-    ----------
-    n : int
-        Number of atoms.
-    ipr : bool
-        Only isomers obeying the isolated pentagon rule, numbered among themselves.
-    progress : bool
-        Show a progress bar (tqdm) on standard error.
-
-    Yields
-    ------
-    Cage
-        With ``spiral == canonical_spiral`` and its isomer number set
-        (``isomer`` for IPR lists, ``isomer_all`` for full lists).
-
-    Examples
-    --------
-    >>> [c.isomer for c in iter_isomers(28)]
-    [1, 2]
-    >>> [c.spiral for c in iter_isomers(70, ipr=True)]
-    [(1, 7, 9, 11, 13, 15, 27, 29, 31, 33, 35, 37)]
-    """
-    n = check_n(n)
-    bar = None
-    if progress:
-        from tqdm.auto import tqdm
-
-        bar = tqdm(
-            desc=f"C{n} {'IPR ' if ipr else ''}isomers", unit=" isomers", file=sys.stderr
-        )
-    rank = 0
-    try:
-        for batch in iter_spirals(n, ipr):
-            for row in batch.tolist():
-                rank += 1
-                if ipr:
-                    yield Cage._trusted(n, row, isomer_ipr=rank)
-                else:
-                    yield Cage._trusted(n, row, isomer_all=rank)
-            if bar is not None:
-                bar.update(len(batch))
-    finally:
-        if bar is not None:
-            bar.close()
-
-
 def count_isomers(n: int, ipr: bool = False) -> int:
     """Number of isomers of C_n (IPR isomers only with ``ipr=True``).
 
@@ -207,44 +154,6 @@ def count_isomers(n: int, ipr: bool = False) -> int:
     (1812, 1)
     """
     return sum(len(b) for b in iter_spirals(n, ipr))
-
-
-def isomer_number(n: int, spiral, ipr: bool | None = None) -> int:
-    """Isomer number of the cage with this spiral (any spiral of it).
-
-    Parameters
-    ----------
-    n : int
-        Number of atoms.
-    spiral : sequence of 12 int
-        Pentagon positions of any face spiral of the cage.
-    ipr : bool or None
-        ``True``: rank among IPR isomers; ``False``: rank among all isomers;
-        ``None`` (default): the literature number, i.e. the IPR rank for an
-        IPR cage and the all-isomer rank otherwise.
-
-    Raises
-    ------
-    CageError
-        Bad input, or ``ipr=True`` for a cage with fused pentagons.
-
-    Examples
-    --------
-    >>> isomer_number(60, [1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32])
-    1
-    >>> isomer_number(60, [1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32], ipr=False)
-    1812
-    """
-    cage = Cage.from_spiral(n, spiral)
-    if ipr is None:
-        ipr = cage.is_ipr
-    if ipr and not cage.is_ipr:
-        raise CageError(
-            f"spiral {' '.join(map(str, cage.spiral))}: this C{cage.n} cage has "
-            f"{cage.fused_pentagon_pairs} fused pentagon pair(s), so it has no IPR isomer "
-            "number; pass ipr=False"
-        )
-    return _rank(cage.n, cage.canonical_spiral, bool(ipr))
 
 
 class _Ranks:
@@ -278,5 +187,14 @@ def _ranks(n: int, ipr: bool) -> _Ranks:
     return _Ranks(n, ipr)
 
 
-def _rank(n: int, canon: tuple[int, ...], ipr: bool) -> int:
-    return _ranks(n, ipr)(canon)
+def isomer_rank(n: int, canonical_spiral: tuple[int, ...], ipr: bool) -> int:
+    """Rank of a canonical spiral among the canonical spirals of C_n (IPR ones if ``ipr``).
+
+    The search runs once per (n, ipr) and is kept for later calls.
+
+    Examples
+    --------
+    >>> isomer_rank(60, (1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32), True)
+    1
+    """
+    return _ranks(n, ipr)(tuple(canonical_spiral))

@@ -10,6 +10,7 @@ import numpy as np
 
 from ..errors import CageError
 from . import _kernels as K
+from .isomers import isomer_rank
 from .spiral import canonical_spiral_of, check_n, check_spiral, wind_up
 
 __all__ = ["Cage"]
@@ -339,9 +340,7 @@ class Cage:
         """Rank of this cage among all isomers of C_n (canonical-spiral order)."""
         if self._isomer_all is not None:
             return self._isomer_all
-        from .isomers import isomer_number
-
-        return isomer_number(self.n, self.canonical_spiral, ipr=False)
+        return isomer_rank(self.n, self.canonical_spiral, False)
 
     @cached_property
     def isomer(self) -> int:
@@ -356,6 +355,4 @@ class Cage:
             return self.isomer_all
         if self._isomer_ipr is not None:
             return self._isomer_ipr
-        from .isomers import isomer_number
-
-        return isomer_number(self.n, self.canonical_spiral, ipr=True)
+        return isomer_rank(self.n, self.canonical_spiral, True)

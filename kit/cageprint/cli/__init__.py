@@ -3,7 +3,8 @@
 Each sub-command lives in its own module of this package and offers two
 functions: ``add_parser(subparsers)`` (declare the command and its options)
 and ``run(args) -> int`` (do the work, print, return the exit code).  A new
-command is added by writing such a module and naming it in ``COMMANDS``.
+command is added by writing such a module, importing it here and naming it in
+``COMMANDS``.
 
 Errors of the kit (:class:`cageprint.errors.CageprintError`) are printed on
 one line to standard error and the command exits with status 2.
@@ -12,36 +13,27 @@ one line to standard error and the command exits with status 2.
 from __future__ import annotations
 
 import argparse
-import importlib
 import sys
 from collections.abc import Sequence
+from types import ModuleType
 
+from .. import __version__
 from ..errors import CageprintError
+from . import assign, demo, envelope, isomers, mass, notebooks
 
-#: sub-command name -> module in this package
-COMMANDS: dict[str, str] = {
-    "isomers": "isomers",
-    "mass": "mass",
-    "envelope": "envelope",
-    "assign": "assign",
-    "demo": "demo",
-    "run-notebooks": "notebooks",
+#: sub-command name -> its module in this package
+COMMANDS: dict[str, ModuleType] = {
+    "isomers": isomers,
+    "mass": mass,
+    "envelope": envelope,
+    "assign": assign,
+    "demo": demo,
+    "run-notebooks": notebooks,
 }
 
 
-def _load(module: str):
-    try:
-        return importlib.import_module(f"{__name__}.{module}")
-    except ModuleNotFoundError as exc:  # command not written yet
-        if exc.name == f"{__name__}.{module}":
-            return None
-        raise
-
-
 def build_parser() -> argparse.ArgumentParser:
-    """Return the argument parser with every available sub-command."""
-    from .. import __version__
-
+    """Return the argument parser with every sub-command."""
     parser = argparse.ArgumentParser(
         prog="cageprint",
         description="Candidate carbon cages, their predicted fingerprints, and the "
@@ -51,11 +43,8 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     sub.required = True
     for module in COMMANDS.values():
-        mod = _load(module)
-        if mod is None:
-            continue
-        p = mod.add_parser(sub)
-        p.set_defaults(_run=mod.run)
+        p = module.add_parser(sub)
+        p.set_defaults(_run=module.run)
     return parser
 
 

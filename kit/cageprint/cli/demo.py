@@ -5,6 +5,8 @@ from __future__ import annotations
 import argparse
 import pathlib
 
+from ..demo import default_demo_dir, generate, is_current
+
 
 def add_parser(sub) -> argparse.ArgumentParser:
     p = sub.add_parser(
@@ -21,8 +23,6 @@ def add_parser(sub) -> argparse.ArgumentParser:
 
 
 def run(args) -> int:
-    from ..demo import default_demo_dir, generate, is_current
-
     out = pathlib.Path(args.out) if args.out else default_demo_dir()
     if args.ensure and is_current(out):
         print(f"demo data up to date in {out}")

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import argparse
 
+from ..isotopes import _check_charge, isotope_envelope
+
 
 def add_parser(sub) -> argparse.ArgumentParser:
     p = sub.add_parser(
@@ -25,8 +27,6 @@ def add_parser(sub) -> argparse.ArgumentParser:
 
 
 def run(args) -> int:
-    from ..isotopes import _check_charge, isotope_envelope
-
     z = _check_charge(args.charge)
     env = isotope_envelope(args.formula, z, c13=args.c13, fine=args.fine)
     rel = env.relative

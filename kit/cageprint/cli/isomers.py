@@ -15,6 +15,7 @@ import sys
 from collections.abc import Callable
 
 from ..cage import Cage, check_n, iter_isomers
+from ..symmetry import fingerprint
 
 
 def _spiral(cage: Cage) -> str:
@@ -31,8 +32,7 @@ COLUMNS: list[tuple[str, Callable[[Cage], object]]] = [
 
 
 def _fingerprint_column(name: str) -> Callable[[Cage], object]:
-    from ..symmetry import fingerprint  # cached per cage: one analysis serves every column
-
+    # fingerprint is cached per cage: one analysis serves every column
     return lambda c: fingerprint(c).columns()[name]
 
 

@@ -4,13 +4,15 @@ from __future__ import annotations
 
 import argparse
 
+from ..errors import FormulaError
+from ..spectra.readers import load_spectrum
+from ..techniques.mass import MASS_TOL_FLOOR, MASS_TOL_PPM, PEAK_SNR, observe_mass
+
 COLUMNS = ("formula", "charge", "mz", "relative_abundance", "error_ppm", "envelope_score",
            "kind", "cage_n", "cage_charge")
 
 
 def add_parser(sub) -> argparse.ArgumentParser:
-    from ..techniques.mass import MASS_TOL_FLOOR, MASS_TOL_PPM, PEAK_SNR
-
     p = sub.add_parser(
         "mass",
         help="list the cage species found in a mass spectrum",
@@ -37,8 +39,6 @@ def add_parser(sub) -> argparse.ArgumentParser:
 
 
 def _c13(value):
-    from ..errors import FormulaError
-
     if value is None or value == "fit":
         return value
     try:
@@ -48,9 +48,6 @@ def _c13(value):
 
 
 def run(args) -> int:
-    from ..spectra.readers import load_spectrum
-    from ..techniques.mass import observe_mass
-
     spectrum = load_spectrum(args.file, technique="mass")
     obs = observe_mass(
         spectrum, snr=args.snr, ppm=args.ppm, floor=args.floor, c13=_c13(args.c13),

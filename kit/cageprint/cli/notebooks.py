@@ -115,6 +115,7 @@ def inject_parameters(nb, params: Mapping[str, object]) -> None:
     """
     if not params:
         return
+    # lazy: notebook-extra packages, heavy; only run-notebooks needs them
     import nbformat
 
     tagged = [i for i, c in enumerate(nb.cells)
@@ -158,6 +159,7 @@ def export_html(nb) -> str:
     The static figures bring their own embedded plotly.js, so nothing is
     lost offline; remote loaders (require.js, MathJax) would only fail there.
     """
+    # lazy: notebook-extra packages, heavy; only run-notebooks needs them
     from nbconvert import HTMLExporter
 
     exporter = HTMLExporter()
@@ -188,6 +190,7 @@ def run_notebook(
     -------
     NotebookRun
     """
+    # lazy: notebook-extra packages, heavy; only run-notebooks needs them
     import nbformat
     from nbclient import NotebookClient
     from nbclient.exceptions import CellExecutionError

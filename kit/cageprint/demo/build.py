@@ -16,7 +16,9 @@ import zlib
 
 import numpy as np
 
+from ..cage import iter_isomers
 from ..errors import CageprintError
+from ..symmetry import fingerprint
 from . import synth
 from .scenario import FRACTIONS, LAB, SOOT_EXTRACT, SYNTHETIC_NOTE, CageTruth, Fraction
 
@@ -37,9 +39,6 @@ def _rng(name: str) -> np.random.Generator:
 
 def _cage(t: CageTruth):
     """The cage of a truth entry, checked against the point group the scenario expects."""
-    from ..cage import iter_isomers
-    from ..symmetry import fingerprint
-
     for cage in iter_isomers(t.n, ipr=True):
         if cage.isomer == t.isomer:
             fp = fingerprint(cage)

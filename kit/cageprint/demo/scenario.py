@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from ..errors import CageprintError
+
 #: the invented lab the demo data pretend to come from
 LAB = "Thistledown Cage Workshop (an invented lab; all data synthetic)"
 
@@ -84,8 +86,6 @@ def fraction(code: str) -> Fraction:
     for f in FRACTIONS:
         if f.code == code.upper():
             return f
-    from ..errors import CageprintError
-
     raise CageprintError(
         f"fraction {code!r}: expected one of {', '.join(f.code for f in FRACTIONS)}"
     )

@@ -20,6 +20,7 @@ import numpy as np
 
 from ..errors import SpectrumError
 from .model import Spectrum
+from .units import transmittance_to_absorbance
 
 __all__ = [
     "SMOOTH_WINDOW",
@@ -135,8 +136,6 @@ def as_absorbance(spectrum: Spectrum) -> tuple[Spectrum, dict]:
     >>> a.y.tolist(), a.y_unit, d["from"]
     ([1.0, 2.0], 'absorbance', 'percent transmittance')
     """
-    from .units import transmittance_to_absorbance
-
     unit = spectrum.y_unit
     if unit == "absorbance":
         return spectrum, {"from": unit, "converted": False}
@@ -195,6 +194,7 @@ def estimate_baseline(
         raise SpectrumError(
             f"baseline method {method!r} is not one of {', '.join(BASELINE_METHODS)}"
         )
+    # lazy: pybaselines is a heavy import; only the arPLS baseline needs it
     from pybaselines import Baseline
 
     params = dict(params)
@@ -328,6 +328,7 @@ def smooth_array(y: np.ndarray, window: int, order: int = SMOOTH_ORDER) -> np.nd
         window = y.size if y.size % 2 else y.size - 1
     if window <= order:
         return np.asarray(y, dtype=float)
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.signal import savgol_filter
 
     return savgol_filter(y, window, order, mode="interp")

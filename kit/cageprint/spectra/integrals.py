@@ -51,6 +51,7 @@ class IntegralResult:
 
     def to_frame(self):
         """The regions as a pandas DataFrame."""
+        # lazy: pandas takes ~0.5 s to import; only the table output needs it
         import pandas as pd
 
         return pd.DataFrame({"position": self.positions, "lo": self.lo, "hi": self.hi,

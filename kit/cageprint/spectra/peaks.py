@@ -92,6 +92,7 @@ class PeakResult:
 
     def to_frame(self):
         """The peaks as a pandas DataFrame (one row per peak)."""
+        # lazy: pandas takes ~0.5 s to import; only the table output needs it
         import pandas as pd
 
         return pd.DataFrame(
@@ -168,6 +169,7 @@ def _lorentz(x, x0, h, w):
 
 
 def _fit_lorentzian(x, y, i, centre, height, fwhm):
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.optimize import curve_fit
 
     half = 1.5 * fwhm

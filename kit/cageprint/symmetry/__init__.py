@@ -15,8 +15,6 @@ Examples
 
 from __future__ import annotations
 
-import importlib
-
 from .automorphisms import AutomorphismGroup, automorphisms
 from .fingerprint import (
     CageSymmetry,
@@ -34,26 +32,20 @@ from .fingerprint import (
     symmetric_geometry,
 )
 from .geometry import GEOMETRY_TOL, SymmetricGeometry, to_xyz
-
-# names of the point-group / table / reduction modules, imported on first use
-_LAZY = {
-    "character_table": "tables",
-    "CharacterTable": "tables",
-    "POINT_GROUPS": "tables",
-    "identify_point_group": "pointgroup",
-    "PointGroupMatch": "pointgroup",
-    "SYMMETRY_TOL": "pointgroup",
-    "reduce_representation": "reduce",
-    "gamma_3n": "reduce",
-    "vibrational_analysis": "reduce",
-    "direct_product": "reduce",
-    "transition_allowed": "reduce",
-    "cartesian_character": "reduce",
-    "class_characters": "reduce",
-    "representation_characters": "reduce",
-    "VibrationalAnalysis": "reduce",
-    "REDUCE_TOL": "reduce",
-}
+from .pointgroup import SYMMETRY_TOL, PointGroupMatch, identify_point_group
+from .reduce import (
+    REDUCE_TOL,
+    VibrationalAnalysis,
+    cartesian_character,
+    class_characters,
+    direct_product,
+    gamma_3n,
+    reduce_representation,
+    representation_characters,
+    transition_allowed,
+    vibrational_analysis,
+)
+from .tables import POINT_GROUPS, CharacterTable, character_table
 
 __all__ = [
     "AutomorphismGroup",
@@ -74,12 +66,20 @@ __all__ = [
     "SymmetricGeometry",
     "GEOMETRY_TOL",
     "to_xyz",
-    *_LAZY,
+    "character_table",
+    "CharacterTable",
+    "POINT_GROUPS",
+    "identify_point_group",
+    "PointGroupMatch",
+    "SYMMETRY_TOL",
+    "reduce_representation",
+    "gamma_3n",
+    "vibrational_analysis",
+    "direct_product",
+    "transition_allowed",
+    "cartesian_character",
+    "class_characters",
+    "representation_characters",
+    "VibrationalAnalysis",
+    "REDUCE_TOL",
 ]
-
-
-def __getattr__(name: str):
-    if name in _LAZY:
-        mod = importlib.import_module(f"{__name__}.{_LAZY[name]}")
-        return getattr(mod, name)
-    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")

@@ -41,6 +41,8 @@ from .huckel import (
     shell_type,
 )
 from .orbits import nmr_orbits, orbit_pattern
+from .pointgroup import identify_point_group
+from .reduce import gamma_3n, reduce_representation, transition_allowed, vibrational_analysis
 from .results import (
     ElectronicPrediction,
     Fingerprint,
@@ -187,8 +189,6 @@ def cage_symmetry(cage) -> CageSymmetry:
     >>> cs.point_group, cs.group.order
     ('Td', 24)
     """
-    from .pointgroup import identify_point_group
-
     nb = _neighbours_of(cage)
     key = _key(nb)
     hit = _SYM_CACHE.get(key)
@@ -238,8 +238,6 @@ def _nmr(cs: CageSymmetry) -> NmrPrediction:
 
 
 def _vib(cs: CageSymmetry) -> VibrationalPrediction:
-    from .reduce import gamma_3n, vibrational_analysis
-
     table = cs.table
     n_fixed = (cs.group.perms == np.arange(cs.group.perms.shape[1])[None, :]).sum(axis=1)
     if cs.group.order == 1:
@@ -261,8 +259,6 @@ def _vib(cs: CageSymmetry) -> VibrationalPrediction:
 def _as_counts(table, x) -> dict[str, int]:
     if isinstance(x, dict):
         return {r: int(x.get(r, 0)) for r in table.irreps if int(x.get(r, 0))}
-    from .reduce import reduce_representation
-
     return _as_counts(table, reduce_representation(table, np.asarray(x, float)))
 
 
@@ -346,8 +342,6 @@ def _allowed(table, a: str, b: str) -> bool:
     key = (table.name, a, b)
     hit = _ALLOWED_CACHE.get(key)
     if hit is None:
-        from .reduce import transition_allowed
-
         hit = _ALLOWED_CACHE[key] = bool(transition_allowed(table, a, b))
     return hit
 
@@ -536,8 +530,6 @@ def point_group_from_geometry(cage, coords, tol: float = GEOMETRY_TOL):
     >>> point_group_from_geometry(nb, x).symbol
     'Td'
     """
-    from .pointgroup import identify_point_group
-
     cs = cage_symmetry(cage)
     ops = symmetry_operations(coords, cs.group, tol=tol)
     n_fixed = (cs.group.perms == np.arange(cs.group.perms.shape[1])[None, :]).sum(axis=1)

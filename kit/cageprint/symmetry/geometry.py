@@ -22,6 +22,7 @@ import itertools
 from dataclasses import dataclass
 
 import numpy as np
+from threadpoolctl import ThreadpoolController
 
 from ..errors import SymmetryError
 from .automorphisms import AutomorphismGroup, automorphisms, trace_faces
@@ -84,17 +85,8 @@ _BLAS = []
 
 def _single_thread_blas():
     """Context keeping BLAS on one thread: small eigenproblems run many times faster so."""
-    if not _BLAS:
-        try:
-            from threadpoolctl import ThreadpoolController
-
-            _BLAS.append(ThreadpoolController())
-        except ImportError:  # pragma: no cover - threadpoolctl is a core dependency
-            _BLAS.append(None)
-    if _BLAS[0] is None:  # pragma: no cover
-        import contextlib
-
-        return contextlib.nullcontext()
+    if not _BLAS:  # the controller inspects the loaded libraries: made once, on first use
+        _BLAS.append(ThreadpoolController())
     return _BLAS[0].limit(limits=1, user_api="blas")
 
 
@@ -337,7 +329,7 @@ def relax(coords, neighbours, *, iterations: int = 2000) -> np.ndarray:
     >>> x.shape
     (4, 3)
     """
-    from scipy.optimize import minimize
+    from scipy.optimize import minimize  # lazy: heavy import (~0.2 s), needed by relax only
 
     nb = np.asarray(neighbours, dtype=np.int64)
     faces = trace_faces(nb)

@@ -17,6 +17,7 @@ from typing import Any
 
 import numpy as np
 
+from .. import symmetry
 from ..candidate import Candidate, transition_energies
 from ..errors import EvidenceError, SpectrumError
 from ..plain import plain as _plain
@@ -56,9 +57,7 @@ CAVEAT = (f"qualitative: Hückel gap turned into eV with |beta| = {HUCKEL_BETA_E
 
 def predict_electronic(cage_or_fingerprint: Any):
     """Hückel prediction of a cage (re-exported from :mod:`cageprint.symmetry`)."""
-    from ..symmetry import predict_electronic as _predict
-
-    return _predict(cage_or_fingerprint)
+    return symmetry.predict_electronic(cage_or_fingerprint)
 
 
 @dataclass(frozen=True)

@@ -188,6 +188,7 @@ class MassObservation:
 
     def to_frame(self):
         """Species as a pandas DataFrame, one row each."""
+        # lazy: pandas takes ~0.5 s to import; only the table output needs it
         import pandas as pd
 
         cols = ["formula", "charge", "mz", "relative_abundance", "error_ppm", "envelope_score",
@@ -211,6 +212,7 @@ def _ladder_residual(z, mz, inten, c13=C13_NATURAL):
     fraction that fits the envelope best.  Returns (cosine, residual in m/z, n)
     of the best alignment, or None.
     """
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.optimize import minimize_scalar
 
     masses = neutral_mass(mz, z)

@@ -332,6 +332,7 @@ def _peel(z, mz, inten, ppm, floor, c13, metals):
     height fixes the species' amount, whose envelope is subtracted; repeat.
     Amounts are then refined jointly by non-negative least squares.
     """
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.optimize import nnls
 
     thr = PEEL_MIN_FRACTION * float(inten.max())

@@ -71,6 +71,7 @@ def _centroid_profile(x, y, snr):
     found after a light matched smoothing (:func:`_smooth`), so S/N refers to
     the smoothed data.
     """
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.ndimage import gaussian_filter1d
     from scipy.signal import find_peaks, peak_widths
 

@@ -41,9 +41,11 @@ from typing import Any
 
 import numpy as np
 
+from .. import symmetry
 from ..candidate import Candidate
 from ..errors import EvidenceError, SpectrumError
 from ..plain import plain as _plain
+from ..spectra import integrate, pick_peaks, references
 from ..verdict import TechniqueVerdict
 from .nmr_match import _fit, _orbit_sizes, _partner_list
 from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
@@ -111,9 +113,7 @@ NMR_LOST_ALLOWANCE = 0.3
 
 def predict_nmr(cage_or_fingerprint: Any):
     """13C orbit prediction of a cage (re-exported from :mod:`cageprint.symmetry`)."""
-    from ..symmetry import predict_nmr as _predict
-
-    return _predict(cage_or_fingerprint)
+    return symmetry.predict_nmr(cage_or_fingerprint)
 
 
 @dataclass(frozen=True)
@@ -189,9 +189,7 @@ def _solvent_lines(solvent: str | None) -> tuple[float, ...]:
     """13C lines of a solvent (or ``"CS2 + C6D6"`` mixture) from the reference table."""
     if not solvent:
         return ()
-    from ..spectra import reference_lines
-
-    return tuple(float(ppm) for ppm, _carbon, _name in reference_lines(solvent))
+    return tuple(float(ppm) for ppm, _carbon, _name in references.reference_lines(solvent))
 
 
 def observe_nmr(
@@ -299,8 +297,6 @@ def _pick_profile(spectrum, snr, prominence, halfwidth):
     The whole trace is searched (lines outside the region are then listed as
     left out); integrals are taken after the same baseline correction.
     """
-    from ..spectra import integrate, pick_peaks
-
     peaks = pick_peaks(spectrum, snr=snr, prominence=prominence)
     if len(peaks) == 0:
         return np.array([]), np.array([]), np.array([]), peaks.diagnostics.get("noise")

@@ -11,8 +11,10 @@ from typing import Any
 
 import numpy as np
 
+from ..cage import Cage
 from ..errors import EvidenceError
 from ..plain import plain as _plain
+from ..symmetry import predict_nmr, symmetric_geometry
 
 __all__ = [
     "ESTIMATE_PPM_AT_C60",
@@ -113,20 +115,14 @@ def estimated_stick_spectrum(cage: Any, prediction: Any = None, *,
                                 f"Fingerprint with a face spiral; got {type(cage).__name__}")
         if prediction is None and hasattr(cage, "nmr") and hasattr(cage.nmr, "orbits"):
             prediction = cage.nmr
-        from ..cage import Cage
-
         cage = Cage.from_spiral(int(cage.n), tuple(spiral))
     if prediction is None:
-        from ..symmetry import predict_nmr
-
         prediction = predict_nmr(cage)
     nmr = getattr(prediction, "nmr", prediction)
     orbits = getattr(nmr, "orbits", None)
     if not orbits:
         raise EvidenceError("estimated_stick_spectrum: the prediction carries no orbits")
     if geometry is None:
-        from ..symmetry import symmetric_geometry
-
         geometry = symmetric_geometry(cage)
     geometry = getattr(geometry, "coords", geometry)
     ang = pyramidalization_angles(geometry, cage.neighbours)

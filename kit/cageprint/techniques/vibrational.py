@@ -16,9 +16,12 @@ from typing import Any
 
 import numpy as np
 
+from .. import symmetry
 from ..candidate import Candidate
 from ..errors import EvidenceError, SpectrumError
 from ..plain import plain as _plain
+from ..spectra import pick_peaks
+from ..spectra.references import IR_ARTEFACTS
 from ..verdict import RULED_OUT_SCORE, TechniqueVerdict
 
 __all__ = [
@@ -60,9 +63,7 @@ FEWER_BAND_WEIGHT = 1.0
 
 def predict_vibrational(cage_or_fingerprint: Any):
     """Vibrational prediction of a cage (re-exported from :mod:`cageprint.symmetry`)."""
-    from ..symmetry import predict_vibrational as _predict
-
-    return _predict(cage_or_fingerprint)
+    return symmetry.predict_vibrational(cage_or_fingerprint)
 
 
 @dataclass(frozen=True)
@@ -111,8 +112,6 @@ def _artefact_regions(technique: str) -> tuple[tuple[float, float, str], ...]:
     """The atmospheric windows of :data:`cageprint.spectra.references.IR_ARTEFACTS`."""
     if technique != "ir":
         return ()
-    from ..spectra.references import IR_ARTEFACTS
-
     return tuple(_region_tuple(r) for r in IR_ARTEFACTS)
 
 
@@ -129,7 +128,7 @@ def _region_tuple(r: Any) -> tuple[float, float, str]:
 def find_bands(x: np.ndarray, y: np.ndarray, snr: float, prominence: float | None,
                min_separation: float) -> tuple[np.ndarray, np.ndarray, float]:
     """Maxima of a profile above ``snr`` x noise (noise from first differences)."""
-    from scipy.signal import find_peaks
+    from scipy.signal import find_peaks  # lazy: scipy.signal takes ~0.3 s to import
 
     base = float(np.median(y))
     yy = y - base
@@ -214,8 +213,6 @@ def observe_vibrational(
     if spectrum.kind == "peaks":
         pos, hts = x, y
     else:
-        from ..spectra import pick_peaks
-
         spec = spectrum
         if "trans" in str(getattr(spectrum, "y_unit", "")).lower():
             spec = spectrum.replace(y=float(np.max(y)) - y, y_unit="absorption-like")

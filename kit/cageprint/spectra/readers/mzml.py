@@ -43,6 +43,7 @@ def _check(data: bytes, source: str) -> None:
 def _vocabulary():
     """The PSI-MS controlled vocabulary, loaded once (pyteomics would load it per file)."""
     try:
+        # lazy: pyteomics and lxml are heavy imports; only mzML input needs them
         from pyteomics.auxiliary.psims_util import _has_psims, load_psims
     except ImportError:  # pragma: no cover - older pyteomics parse without it
         return None
@@ -51,6 +52,7 @@ def _vocabulary():
 
 def _spectra(data: bytes, source: str, decode: bool = True):
     """Yield pyteomics spectrum dicts; errors become SpectrumFormatError."""
+    # lazy: pyteomics and lxml are heavy imports; only mzML input needs them
     from lxml import etree
     from pyteomics import mzml
     from pyteomics.auxiliary import PyteomicsError
