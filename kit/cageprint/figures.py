@@ -329,6 +329,7 @@ def _cell(v: Any) -> str:
 def html_table(
     rows: Sequence[Mapping[str, Any]],
     columns: Sequence[str] | None = None,
+    *,
     name: str = "table",
     key: str | None = None,
     highlight: Iterable[Any] = (),

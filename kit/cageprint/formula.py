@@ -94,7 +94,7 @@ def _parse_part(text: str, whole: str, start: int) -> dict[str, int]:
 
 
 def _write_outer(counts: dict[str, int]) -> str:
-    order = [e for e in ("C", "H") if e in counts]
+    order: list[str] = [e for e in ("C", "H") if e in counts]
     order += sorted(e for e in counts if e not in ("C", "H"))
     return "".join(e + (str(counts[e]) if counts[e] != 1 else "") for e in order)
 

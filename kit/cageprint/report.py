@@ -206,15 +206,15 @@ def svg_spectrum(x: Sequence[float], y: Sequence[float], *, kind: str = "profile
     >>> svg.startswith("<svg") and "&lt;b&gt;" in svg
     True
     """
-    x = np.asarray(x, float)
-    y = np.asarray(y, float)
-    xs = np.concatenate([x, [s[0] for s in sticks]]) if len(sticks) else x
+    xa = np.asarray(x, float)
+    ya = np.asarray(y, float)
+    xs = np.concatenate([xa, [s[0] for s in sticks]]) if len(sticks) else xa
     lo, hi = float(xs.min()), float(xs.max())
     if hi <= lo:
         lo, hi = lo - 1.0, hi + 1.0
     pad = 0.02 * (hi - lo)
     lo, hi = lo - pad, hi + pad
-    top = float(np.max(np.abs(y))) or 1.0
+    top = float(np.max(np.abs(ya))) or 1.0
     ml, mr, mt, mb = 10, 10, 22, 30
     base = mt + (height - mt - mb) * (0.62 if len(sticks) else 1.0)
     span = base - mt
@@ -235,12 +235,12 @@ def svg_spectrum(x: Sequence[float], y: Sequence[float], *, kind: str = "profile
     parts.append(f'<line x1="{ml}" y1="{base:.1f}" x2="{width - mr}" y2="{base:.1f}" '
                  'stroke="#888" stroke-width="0.6"/>')
     if kind == "peaks":
-        for xi, yi in zip(x, y, strict=True):
+        for xi, yi in zip(xa, ya, strict=True):
             parts.append(f'<line x1="{px(xi):.1f}" y1="{base:.1f}" x2="{px(xi):.1f}" '
                          f'y2="{py(yi):.1f}" stroke="#1f3a93" stroke-width="1.2"/>')
     else:
-        step = max(1, x.size // 1500)
-        pts = " ".join(f"{px(a):.1f},{py(b):.1f}" for a, b in zip(x[::step], y[::step],
+        step = max(1, xa.size // 1500)
+        pts = " ".join(f"{px(a):.1f},{py(b):.1f}" for a, b in zip(xa[::step], ya[::step],
                                                                   strict=True))
         parts.append(f'<polyline fill="none" stroke="#1f3a93" stroke-width="0.8" '
                      f'points="{pts}"/>')

@@ -78,15 +78,14 @@ def build_session(args: argparse.Namespace) -> Session:
         key, val = _split(item, "--set", "TECH.NAME=VALUE such as nmr.snr=8")
         if "." not in key:
             raise SessionError(f"--set {item!r}: expected TECH.NAME=VALUE such as nmr.snr=8")
-        tech, name = key.split(".", 1)
-        names = s.threshold_names(tech)
-        if name not in names:
-            s.set_threshold(tech, name, None)  # raises, naming the known settings
-        s.set_threshold(tech, name, s.settings(tech).parse(name, val))
-    for tech in registry.techniques():
-        path = getattr(args, f"input_{tech.key}", None)
+        key_t, name = key.split(".", 1)
+        if name not in s.threshold_names(key_t):
+            s.set_threshold(key_t, name, None)  # raises, naming the known settings
+        s.set_threshold(key_t, name, s.settings(key_t).parse(name, val))
+    for technique in registry.techniques():
+        path = getattr(args, f"input_{technique.key}", None)
         if path:
-            s.load(tech.key, path)
+            s.load(technique.key, path)
     s.set_candidates(ipr=args.ipr)
     return s
 

@@ -145,7 +145,7 @@ class Spectrum:
 
     def replace(self, **changes: Any) -> Spectrum:
         """Return a copy with some fields changed (the original is untouched)."""
-        fields = dict(
+        fields: dict[str, Any] = dict(
             x=self.x, y=self.y, technique=self.technique, x_unit=self.x_unit,
             y_unit=self.y_unit, kind=self.kind, widths=self.widths, meta=dict(self.meta),
         )

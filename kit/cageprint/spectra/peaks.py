@@ -259,7 +259,8 @@ def pick_peaks(
     if region is not None:
         s, _ = crop(s, *region)
     if s.kind == "peaks":
-        return _filter_peak_list(s, prominence, snr, min_separation, noise, min_height, diag)
+        return _filter_peak_list(s, prominence, snr, min_separation, noise, min_height=min_height,
+                                 diag=diag)
 
     x = s.x
     base, bdiag = _baseline_of(s, baseline)
@@ -304,7 +305,7 @@ def pick_peaks(
     if idx.size == 0:
         diag["candidates"] = 0
         diag["rejected"] = rejected
-        return _result([], [], [], [], [], s, diag)
+        return _result([], [], [], [], [], s=s, diag=diag)
 
     # valleys between neighbouring candidates bound each width measurement
     valleys = [int(a + np.argmin(ys[a:b + 1])) for a, b in zip(idx[:-1], idx[1:], strict=True)]
@@ -385,13 +386,13 @@ def pick_peaks(
     diag["rejected"] = rejected
     diag["below_contrast_prefilter"] = low_contrast
     diag["area_rule"] = f"integral over +-{AREA_FWHM} FWHM, cut at midpoints to neighbours"
-    res = _result(positions, heights, widths, areas, snrs, s, diag)
+    res = _result(positions, heights, widths, areas, snrs, s=s, diag=diag)
     if min_separation is not None and len(res) > 1:
         res = merge_peaks(res, min_separation)
     return res
 
 
-def _result(positions, heights, widths, areas, snrs, s: Spectrum, diag) -> PeakResult:
+def _result(positions, heights, widths, areas, snrs, *, s: Spectrum, diag) -> PeakResult:
     return PeakResult(
         positions=np.asarray(positions, dtype=float), heights=np.asarray(heights, dtype=float),
         widths=np.asarray(widths, dtype=float), areas=np.asarray(areas, dtype=float),
@@ -400,7 +401,7 @@ def _result(positions, heights, widths, areas, snrs, s: Spectrum, diag) -> PeakR
     )
 
 
-def _filter_peak_list(s, prominence, snr, min_separation, noise, min_height, diag):
+def _filter_peak_list(s, prominence, snr, min_separation, noise, *, min_height, diag):
     x, y = s.x, s.y
     w = s.widths if s.widths is not None else np.full(x.size, np.nan)
     keep = np.ones(x.size, dtype=bool)

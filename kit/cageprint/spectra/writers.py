@@ -161,7 +161,7 @@ def _to_file(text: str, path) -> bytes:
 
 
 def _block_lines(s: Spectrum, form: str, title: str | None, yfactor: float | None,
-                 x_unit: str | None, descending: bool, block_id=None) -> list[str]:
+                 x_unit: str | None, descending: bool, *, block_id=None) -> list[str]:
     form = form.upper().replace("_", " ")
     form = {"DIFDUP": "DUP", "PEAKTABLE": "PEAK TABLE"}.get(form, form)
     if form not in JCAMP_FORMS:

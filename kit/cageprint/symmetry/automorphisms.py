@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import itertools
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -278,6 +279,7 @@ def _bfs_plan(nb: np.ndarray, back: np.ndarray, root: int):
     return (np.array(order), np.array(parent), np.array(offset), kref)
 
 
+_njit: Any
 try:  # numba compiles the candidate loop; without it the numpy lock-step path is used
     from numba import njit as _njit
 except ImportError:  # pragma: no cover - exercised only without numba

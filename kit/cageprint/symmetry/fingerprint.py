@@ -109,7 +109,7 @@ class CageSymmetry:
     group: AutomorphismGroup
     spectrum: tuple[np.ndarray, np.ndarray]
     match: Any
-    faces: list = field(default=None, repr=False)
+    faces: list | None = field(default=None, repr=False)
     chosen: TopologicalEmbedding | None = field(default=None, repr=False)
 
     @functools.cached_property

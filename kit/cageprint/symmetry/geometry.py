@@ -80,7 +80,7 @@ def adjacency_spectrum(neighbours) -> tuple[np.ndarray, np.ndarray]:
     return lam[::-1].copy(), np.ascontiguousarray(vec[:, ::-1])
 
 
-_BLAS = []
+_BLAS: list[ThreadpoolController] = []
 
 
 def _single_thread_blas():
@@ -134,7 +134,8 @@ def _fixes_a_cell(group: AutomorphismGroup, nb: np.ndarray, faces) -> np.ndarray
     swapped = (p[:, :, None] == nb[None]) & (p[:, nb] == np.arange(n)[None, :, None])
     bond = swapped.any(axis=(1, 2))
     # a face fixed setwise: same order-free hash of its atoms before and after
-    h = np.random.default_rng(12345).integers(1, 2**62, size=n, dtype=np.int64).astype(np.uint64)
+    h = np.asarray(np.random.default_rng(12345).integers(1, 2**62, size=n, dtype=np.int64),
+                   dtype=np.uint64)
     flat = np.concatenate([np.asarray(f, dtype=np.int64) for f in faces])
     starts = np.cumsum([0] + [len(f) for f in faces[:-1]])
     fh = np.add.reduceat(h[flat], starts)
@@ -198,7 +199,7 @@ def _check_candidate(x, group, porders, improper_inv_mirror):
 def _combos(dims: tuple[int, ...]) -> tuple[tuple[int, ...], ...]:
     """Sets of eigenspaces of total dimension 3, highest eigenvalues first (cached per dims)."""
     by_dim = {d: [k for k, dk in enumerate(dims) if dk == d] for d in (1, 2, 3)}
-    combos = [(k,) for k in by_dim[3]]
+    combos: list[tuple[int, ...]] = [(k,) for k in by_dim[3]]
     combos += [tuple(sorted(c)) for c in itertools.product(by_dim[1], by_dim[2])]
     combos += list(itertools.combinations(by_dim[1], 3))
     combos.sort(key=lambda c: (max(c), c))
@@ -282,7 +283,7 @@ def topological_embedding(
 def _spring_terms(nb: np.ndarray, faces) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Pairs, target lengths (Å) and weights for bonds, bond angles and hexagon diagonals."""
     # face size to the left of dart (i -> nb[i, m]) and its partner; pentagon count per bond
-    npent = {}
+    npent: dict[tuple[int, int], int] = {}
     for f in faces:
         for a, b in zip(f, f[1:] + f[:1], strict=True):
             key = (min(a, b), max(a, b))

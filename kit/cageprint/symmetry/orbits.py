@@ -203,7 +203,8 @@ def inadequate_links(orbits, bond_orbits_) -> tuple[tuple[int, int, int], ...]:
     count: dict[tuple[int, int], int] = {}
     for orb in bond_orbits_:
         i, j = orb[0]
-        key = tuple(sorted((line[int(i)], line[int(j)])))
+        a, b = sorted((line[int(i)], line[int(j)]))
+        key = (a, b)
         count[key] = count.get(key, 0) + len(orb)
     return tuple((a, b, c) for (a, b), c in sorted(count.items()))
 

@@ -148,6 +148,7 @@ class _Lookup:
             gap = float(np.min(np.diff(ss))) if g > 1 else 1.0
             if best is None or gap > best[0]:
                 best = (gap, u, keys, s)
+        assert best is not None  # _PROBES is not empty
         gap, self.u, self.keys, s = best
         self.keys_t = np.ascontiguousarray(self.keys.T)
         if g > 1:
@@ -425,7 +426,7 @@ def identify_point_group(ops, tol: float = SYMMETRY_TOL, weights=None) -> PointG
         else:
             free.append((tcols, list(cand)))
     if free:
-        assign = _settle(table, assign, free, cls_of_op, mult, cw, first, symbol)
+        assign = _settle(table, assign, free, cls_of_op, mult, cw, first=first, symbol=symbol)
     table_col = np.empty(nc, dtype=int)
     table_col[assign] = np.arange(nc)
     op_class = table_col[cls_of_op]
@@ -462,7 +463,7 @@ def _column_kinds(symbol: str) -> dict[tuple, list[int]]:
     return groups
 
 
-def _settle(table, assign, free, cls_of_op, mult, cw, first, symbol):
+def _settle(table, assign, free, cls_of_op, mult, cw, *, first, symbol):
     """Choose among the labellings left open by the table (see Notes above)."""
     one_d = [i for i, (r, d) in enumerate(zip(table.irreps, table.dims, strict=True))
              if d == 1 and r not in table.separable]
@@ -512,8 +513,8 @@ def _frame(symbol: str, table: CharacterTable, a: np.ndarray, op_class: np.ndarr
         c2 = [j for j in np.flatnonzero(op_class == classes.index(
             next(c for c in classes if c.endswith("C2"))))]
         z = _canon(_axis(a[c2[0]]))
-        for j in c2[1:]:
-            v = _axis(a[j])
+        for k in c2[1:]:
+            v = _axis(a[k])
             if abs(v @ z) < 0.1:
                 x = _canon(v)
                 break

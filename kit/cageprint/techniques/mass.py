@@ -380,11 +380,12 @@ def observe_mass(
         efl = pfloor[members]
         envelopes.append(ObservedEnvelope(zs, emz, eint, efl))
         c13_search = c13 if c13 == "fit" else c13_fixed
-        greedy = _greedy(zs, emz, eint, ppm, efl, c13_search, metals, snr, noise)
+        greedy = _greedy(zs, emz, eint, ppm, efl, c13_search, metals=metals, snr=snr,
+                         noise=noise)
         chosen = greedy
         fit_greedy = _explained(greedy, emz, eint, ppm, efl)
         if c13 != "fit" and fit_greedy < PEEL_TRY_BELOW:
-            peeled = _peel(zs, emz, eint, ppm, efl, c13_fixed, metals)
+            peeled = _peel(zs, emz, eint, ppm, efl, c13_fixed, metals=metals)
             if peeled and _explained(peeled, emz, eint, ppm, efl) > fit_greedy + 0.005:
                 chosen = peeled
         if not chosen:

@@ -166,7 +166,7 @@ def _fl(floor, idx):
     return floor[idx] if np.ndim(floor) else floor
 
 
-def _match(text, z, mz, inten, ppm, floor, c13) -> MassMatch | None:
+def _match(text, z, mz, inten, ppm, floor, *, c13) -> MassMatch | None:
     env = _envelope_cached(text, z, c13)
     rel = env.abundance
     keep = rel >= 1e-3 * rel.max()
@@ -210,7 +210,7 @@ def _match(text, z, mz, inten, ppm, floor, c13) -> MassMatch | None:
 
 
 def _match_free_c13(text, z, mz, inten, ppm, floor) -> MassMatch | None:
-    first = _match(text, z, mz, inten, ppm, floor, C13_NATURAL)
+    first = _match(text, z, mz, inten, ppm, floor, c13=C13_NATURAL)
     if first is None:
         # positions hardly depend on p; accept if the strongest peak is on a line
         env = _envelope_cached(text, z, C13_NATURAL)
@@ -222,7 +222,7 @@ def _match_free_c13(text, z, mz, inten, ppm, floor) -> MassMatch | None:
     except FormulaError:
         return first
     p = round(float(fit.c13), 5)
-    second = _match(text, z, mz, inten, ppm, floor, p)
+    second = _match(text, z, mz, inten, ppm, floor, c13=p)
     if second is None:
         return first
     if first is None or second.score > first.score:
@@ -252,10 +252,10 @@ def score_formula(formula, envelope: ObservedEnvelope, *, c13=None,
     if c13 == "fit":
         return _match_free_c13(text, z, envelope.mz, envelope.intensity, ppm, floor)
     c = C13_NATURAL if c13 is None else float(c13)
-    return _match(text, z, envelope.mz, envelope.intensity, ppm, floor, c)
+    return _match(text, z, envelope.mz, envelope.intensity, ppm, floor, c13=c)
 
 
-def _best_for(z, mz, inten, ppm, floor, c13, metals):
+def _best_for(z, mz, inten, ppm, floor, c13, *, metals):
     masses = neutral_mass(mz, z)
     lo, hi = float(masses.min()) - 13.0, float(masses.max()) + 1.0
     results = []
@@ -263,7 +263,7 @@ def _best_for(z, mz, inten, ppm, floor, c13, metals):
         if c13 == "fit":
             m = _match_free_c13(text, z, mz, inten, ppm, floor)
         else:
-            m = _match(text, z, mz, inten, ppm, floor, c13)
+            m = _match(text, z, mz, inten, ppm, floor, c13=c13)
         if m is not None and m.envelope_score >= ENVELOPE_MIN_SCORE:
             results.append((m, kind))
     results.sort(key=lambda r: (-r[0].score, _KIND_ORDER.index(r[1])))
@@ -292,12 +292,12 @@ def _explained(found, mz, inten, ppm, floor) -> float:
     return float(model @ inten / (np.linalg.norm(model) * np.linalg.norm(inten) + 1e-300))
 
 
-def _greedy(z, mz, inten, ppm, floor, c13, metals, snr, noise):
+def _greedy(z, mz, inten, ppm, floor, c13, *, metals, snr, noise):
     """Best formula for the envelope, then for what it leaves (up to 3 species)."""
     found = []
     resid = inten.copy()
     for attempt in range(3):
-        res = _best_for(z, mz, resid, ppm, floor, c13, metals)
+        res = _best_for(z, mz, resid, ppm, floor, c13, metals=metals)
         if not res:
             break
         best, kind = res[0]
@@ -325,7 +325,7 @@ def _mono_index(env: Envelope, text: str) -> int:
     return int(hit[0]) if hit.size else 0
 
 
-def _peel(z, mz, inten, ppm, floor, c13, metals):
+def _peel(z, mz, inten, ppm, floor, c13, *, metals):
     """Explain one envelope as a sum of overlapping species, lowest m/z first.
 
     The lowest remaining peak must be the monoisotopic line of a species; its

@@ -392,17 +392,20 @@ def compare_nmr(
     mixture = None
     unexplained = [j for j, k in enumerate(picks) if k is None]
     if len(unexplained) > impurity_allowance and partners:
-        mixture = _second_component(sizes, logs, picks, values, ln_s, weights, unexplained,
-                                    _partner_list(partners)[:NMR_MAX_PARTNERS], costs,
-                                    cost, mixture_cost, minor_component_cost)
+        mixture = _second_component(sizes, logs, picks, values, ln_s, weights,
+                                    unexplained=unexplained,
+                                    partners=_partner_list(partners)[:NMR_MAX_PARTNERS],
+                                    costs=costs, cost_alone=cost, mixture_cost=mixture_cost,
+                                    minor_component_cost=minor_component_cost)
         if mixture is not None:
             cost = mixture["cost"]
-    return _verdict(observation, sizes, pattern, cost, picks, values, counts, ln_s, use,
-                    integral_tol, impurity_allowance, lost_allowance, minor_fraction,
-                    weights, mixture)
+    return _verdict(observation, sizes, pattern, cost, picks, values, counts=counts, ln_s=ln_s,
+                    use=use, tol=integral_tol, impurity_allowance=impurity_allowance,
+                    lost_allowance=lost_allowance, minor_fraction=minor_fraction,
+                    weights=weights, mixture=mixture)
 
 
-def _second_component(sizes, logs, picks, values, ln_s, weights, unexplained, partners,
+def _second_component(sizes, logs, picks, values, ln_s, weights, *, unexplained, partners,
                       costs, cost_alone, mixture_cost, minor_component_cost):
     """Try the unexplained lines as a second component; the best, if cheaper than impurities."""
     def imp(j: int, ln_scale: float, top: float) -> float:
@@ -465,7 +468,7 @@ def _intensity_word(v: int, top: int) -> str:
     return f"{frac.numerator}/{frac.denominator}-intensity"
 
 
-def _verdict(obs, sizes, pattern, cost, picks, values, counts, ln_s, use, tol,
+def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, tol,
              impurity_allowance, lost_allowance, minor_fraction, weights, mixture):
     n_obs, n_pred = obs.n_lines, len(sizes)
     partner_lines = set(mixture["lines"]) if mixture else set()

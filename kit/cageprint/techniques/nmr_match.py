@@ -52,8 +52,10 @@ def _layout(sizes: tuple[int, ...], max_merge: int):
             [int(o) for o in offsets], unused)
 
 
-def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_miss):
+def _assign(sizes, logs, ln_scale, costs):
     """Best explanation of the lines by the orbits, for one integral scale.
+
+    ``costs`` is (tol, max_merge, c_merge, c_imp, c_strong, c_miss).
 
     Returns (cost, per-line choice vectors or None for impurity, values, counts).
 
@@ -62,6 +64,7 @@ def _assign(sizes, logs, ln_scale, tol, max_merge, c_merge, c_imp, c_strong, c_m
     choices are recovered backwards along the best path only, by the same
     sums: the first of equal costs wins (impurity, then the earlier option).
     """
+    tol, max_merge, c_merge, c_imp, c_strong, c_miss = costs
     values, counts, options, log_contents, n_orb, gather, sources, offsets, unused = _layout(
         tuple(sizes), int(max_merge))
     merge = c_merge * (n_orb - 1)
@@ -135,14 +138,14 @@ def _fit_cached(sizes, logs, costs):
     """
     use = logs and logs[0] is not None
     if not use:
-        return _assign(sizes, logs, 0.0, *costs) + (0.0,)
+        return _assign(sizes, logs, 0.0, costs) + (0.0,)
     counts = {v: sizes.count(v) for v in set(sizes)}
     v_mode = max(counts, key=lambda v: (counts[v], v))
     total = sum(math.exp(ell) for ell in logs)
     starts = [math.log(sum(sizes) / total), math.log(v_mode) - float(np.median(logs))]
     if abs(starts[1] - starts[0]) < 1e-3:
         starts = starts[:1]
-    best = min((_assign(sizes, logs, ln_s, *costs) + (ln_s,) for ln_s in starts),
+    best = min((_assign(sizes, logs, ln_s, costs) + (ln_s,) for ln_s in starts),
                key=lambda r: r[0])
     seen = {round(r, 6) for r in starts}
     for _ in range(4):
@@ -155,7 +158,7 @@ def _fit_cached(sizes, logs, costs):
         if round(new_s, 6) in seen:
             break
         seen.add(round(new_s, 6))
-        res = _assign(sizes, logs, new_s, *costs) + (new_s,)
+        res = _assign(sizes, logs, new_s, costs) + (new_s,)
         if res[0] >= best[0] - 1e-12:
             break
         best = res

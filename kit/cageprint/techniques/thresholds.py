@@ -36,7 +36,11 @@ __all__ = ["NmrSettings", "IrSettings", "RamanSettings", "UvVisSettings", "MassS
 #: solvents the widgets offer for excluding 13C lines (any name of the reference table works)
 SOLVENT_CHOICES = ("CS2", "CDCl3", "C6D6", "toluene-d8", "1,2-dichlorobenzene-d4")
 
-_COST = dict(stage="compare", low=0.0, high=100.0)
+
+
+def _cost(default: float, help: str) -> Any:
+    """A compare-stage cost or weight (score units, 0 to 100)."""
+    return setting(default, help=help, stage="compare", low=0.0, high=100.0)
 
 
 def _known_solvent(name: Any) -> None:
@@ -86,13 +90,11 @@ class NmrSettings(Settings):
                                   help="relative integral error of one standard deviation")
     max_merge: int = setting(nmr.NMR_MAX_MERGE, stage="compare", kind="int", low=1, high=6,
                              help="most orbits one observed line may carry")
-    merge_cost: float = setting(nmr.NMR_MERGE_COST, help="cost of each extra orbit on a line",
-                                **_COST)
-    impurity_cost: float = setting(nmr.NMR_IMPURITY_COST, help="cost of an unexplained line",
-                                   **_COST)
-    impurity_strength_cost: float = setting(nmr.NMR_IMPURITY_STRENGTH_COST, **_COST,
-                                            help="extra cost of a strong unexplained line")
-    missing_cost: float = setting(nmr.NMR_MISSING_COST, help="cost of an unseen orbit", **_COST)
+    merge_cost: float = _cost(nmr.NMR_MERGE_COST, "cost of each extra orbit on a line")
+    impurity_cost: float = _cost(nmr.NMR_IMPURITY_COST, "cost of an unexplained line")
+    impurity_strength_cost: float = _cost(nmr.NMR_IMPURITY_STRENGTH_COST,
+                                          "extra cost of a strong unexplained line")
+    missing_cost: float = _cost(nmr.NMR_MISSING_COST, "cost of an unseen orbit")
     impurity_allowance: int = setting(nmr.NMR_IMPURITY_ALLOWANCE, stage="compare", kind="int",
                                       low=0, high=100,
                                       help="unexplained lines tolerated before ruling out")
@@ -100,10 +102,9 @@ class NmrSettings(Settings):
                                     help="fraction of orbits merged or missing tolerated")
     minor_fraction: float = setting(nmr.NMR_MINOR_FRACTION, stage="compare", low=0.0, high=1.0,
                                     help="unexplained intensity fraction that rules out")
-    mixture_cost: float = setting(nmr.NMR_MIXTURE_COST, help="cost of assuming a mixture",
-                                  **_COST)
-    minor_component_cost: float = setting(nmr.NMR_MINOR_COMPONENT_COST, **_COST,
-                                          help="extra cost of being the minor component")
+    mixture_cost: float = _cost(nmr.NMR_MIXTURE_COST, "cost of assuming a mixture")
+    minor_component_cost: float = _cost(nmr.NMR_MINOR_COMPONENT_COST,
+                                        "extra cost of being the minor component")
 
 
 def _window_cm(default: tuple[float, float]) -> Any:
@@ -126,9 +127,9 @@ class IrSettings(Settings):
                                     help="bands closer than this count as one")
     allowance: int = setting(vib.EXTRA_BAND_ALLOWANCE, stage="compare", kind="int", low=0,
                              high=50, help="extra bands tolerated (overtones, impurities)")
-    extra_cost: float = setting(vib.EXTRA_BAND_COST, help="score lost per extra band", **_COST)
-    fewer_weight: float = setting(vib.FEWER_BAND_WEIGHT, **_COST,
-                                  help="weight of the fewer-bands-than-allowed penalty")
+    extra_cost: float = _cost(vib.EXTRA_BAND_COST, "score lost per extra band")
+    fewer_weight: float = _cost(vib.FEWER_BAND_WEIGHT,
+                                "weight of the fewer-bands-than-allowed penalty")
 
 
 @dataclass(frozen=True)
@@ -155,7 +156,7 @@ class UvVisSettings(Settings):
                              help="|beta| turning Hückel gaps into eV")
     tol_ev: float = setting(el.UV_TOL_EV, stage="compare", unit="eV", low=0.01, high=10.0,
                             help="one standard deviation of the gap-onset mismatch")
-    max_cost: float = setting(el.UV_MAX_COST, help="most score UV-vis can take away", **_COST)
+    max_cost: float = _cost(el.UV_MAX_COST, "most score UV-vis can take away")
 
 
 @dataclass(frozen=True)

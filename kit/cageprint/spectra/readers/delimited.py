@@ -447,7 +447,7 @@ def _meta(table: _Table, data: bytes, source: str, fmt: str) -> dict:
     return m
 
 
-def _describe(table, data: bytes, source: str, fmt: str, technique, x_unit, y_unit,
+def _describe(table, data: bytes, source: str, fmt: str, *, technique, x_unit, y_unit,
               observe_mhz, meta):
     """Technique, x unit, y meaning, metadata and spectrometer MHz of a read table."""
     xu = _x_unit_from_header(table, table.idx["x"], source, x_unit)
@@ -513,7 +513,8 @@ def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str |
     opts = dict(delimiter=delimiter, decimal=decimal, encoding=encoding, max_points=max_points)
     table = _read_table(data, source, opts, {"x": (x_column, 0), "y": (y_column, 1)})
     tech, xu, yu, m, observe_mhz = _describe(
-        table, data, source, "delimited", technique, x_unit, y_unit, observe_mhz, meta
+        table, data, source, "delimited", technique=technique, x_unit=x_unit, y_unit=y_unit,
+        observe_mhz=observe_mhz, meta=meta,
     )
     return build_spectrum(
         table.columns["x"], table.columns["y"], technique=tech, x_unit=xu, y_unit=yu,
@@ -547,7 +548,8 @@ def parse_peaklist(data: bytes, source: str = BYTES_SOURCE, *, technique: str | 
         data, source, opts, {"x": (x_column, 0), "y": (y_column, 1), "width": (width_column, 2)}
     )
     tech, xu, yu, m, observe_mhz = _describe(
-        table, data, source, "peaklist", technique, x_unit, y_unit, observe_mhz, meta
+        table, data, source, "peaklist", technique=technique, x_unit=x_unit, y_unit=y_unit,
+        observe_mhz=observe_mhz, meta=meta,
     )
     widths = table.columns.get("width")
     if widths is not None and np.any(widths < 0):
