@@ -384,9 +384,9 @@ class Session:
         cached = self._verdicts.get(technique)
         if cached is not None:
             return cached
-        obs = self.observation(technique)
-        if obs is None:
+        if not self.has_data(technique):
             return [no_data(technique)] * len(self.candidates)
+        obs = self.observation(technique)  # may be None for a technique that needs no input
         cache = self._cmp.setdefault(technique, {})
         before = len(cache)
         ctx = CompareContext(technique, obs, self.settings(technique), self.candidates)
