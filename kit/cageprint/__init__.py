@@ -26,6 +26,7 @@ from __future__ import annotations
 
 from importlib.metadata import PackageNotFoundError, version
 
+from . import errors
 from .api import assign, candidates
 from .candidate import Candidate
 from .errors import (
@@ -33,6 +34,7 @@ from .errors import (
     CageprintError,
     EvidenceError,
     FormulaError,
+    NotebookRunError,
     SessionError,
     SettingsError,
     SpectrumError,
@@ -59,13 +61,5 @@ __all__ = [
     "Candidate",
     "Ranking",
     "parse_formula",
-    "CageprintError",
-    "CageError",
-    "SymmetryError",
-    "SpectrumFormatError",
-    "SpectrumError",
-    "FormulaError",
-    "EvidenceError",
-    "SessionError",
-    "SettingsError",
+    *errors.__all__,  # the exception family
 ]

@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
+from types import MappingProxyType
 from typing import Any
 
 import numpy as np
 
-__all__ = ["plain"]
+__all__ = ["plain", "freeze_fields"]
 
 
 def plain(value: Any) -> Any:
@@ -33,3 +34,22 @@ def plain(value: Any) -> Any:
     if isinstance(value, float) and not math.isfinite(value):
         return None
     return value
+
+
+_FREEZE: dict[str, Callable[[Any], Any]] = {
+    "excluded": lambda v: tuple(MappingProxyType(dict(e)) for e in v),
+    "region": lambda v: (float(v[0]), float(v[1])),
+    "thresholds": lambda v: MappingProxyType(dict(v)),
+    "diagnostics": lambda v: MappingProxyType(dict(v)),
+}
+
+
+def freeze_fields(record: Any, *names: str) -> None:
+    """Settle the fields observation records share, in a frozen dataclass's ``__post_init__``.
+
+    ``excluded`` becomes a tuple of read-only mappings, ``region`` a pair of
+    floats, ``thresholds`` and ``diagnostics`` read-only mappings.
+    """
+    for name in names:
+        object.__setattr__(record, name, _FREEZE[name](getattr(record, name)))
+

@@ -31,10 +31,9 @@ IPR counts for every even n from 60 to 100.
 
 References
 ----------
-D. E. Manolopoulos, J. C. May, S. E. Down, "Theoretical studies of the
-fullerenes: C34 to C70", Chem. Phys. Lett. 181, 105 (1991).
-P. W. Fowler, D. E. Manolopoulos, *An Atlas of Fullerenes*, Clarendon Press,
-Oxford, 1995.
+The face-spiral method and isomer numbering: Manolopoulos, May & Down, Chem. Phys.
+Lett. 181, 105 (1991); Fowler & Manolopoulos, *An Atlas of Fullerenes* (1995); full
+citations in :mod:`cageprint.cage.spiral`.
 """
 
 from __future__ import annotations

@@ -136,6 +136,7 @@ class Cage:
         Returns
         -------
         Cage
+            Built from the canonical spiral (atoms renumbered).
 
         Raises
         ------

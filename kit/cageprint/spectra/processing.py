@@ -8,6 +8,7 @@ their public names.
 
 from __future__ import annotations
 
+from . import filters, integrals, peaks
 from .filters import (
     BASELINE_LAM,
     BASELINE_LAM_MAX,
@@ -40,34 +41,5 @@ from .peaks import (
     pick_peaks,
 )
 
-__all__ = [
-    "PEAK_SNR",
-    "SMOOTH_WINDOW",
-    "SMOOTH_ORDER",
-    "BASELINE_LAM",
-    "BASELINE_LAM_MAX",
-    "BASELINE_MAX_POINTS",
-    "BASELINE_METHODS",
-    "NOISE_CLIP",
-    "NOISE_DILATE",
-    "FIT_MAX_HALF_POINTS",
-    "HEIGHT_PREFILTER",
-    "MAX_CANDIDATES",
-    "VALLEY_HALF_POINTS",
-    "AREA_FWHM",
-    "INTEGRAL_FWHM",
-    "crop",
-    "as_absorbance",
-    "smooth",
-    "smooth_array",
-    "estimate_baseline",
-    "remove_baseline",
-    "estimate_noise",
-    "PeakResult",
-    "pick_peaks",
-    "merge_peaks",
-    "IntegralResult",
-    "integrate",
-    "_noise_sigma",
-    "_region_integrals",
-]
+__all__ = [*filters.__all__, *peaks.__all__, *integrals.__all__,
+           "_noise_sigma", "_region_integrals"]

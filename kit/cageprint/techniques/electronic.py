@@ -12,15 +12,15 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from types import MappingProxyType
 from typing import Any
 
 import numpy as np
 
-from .. import symmetry
 from ..candidate import Candidate, transition_energies
 from ..errors import EvidenceError, SpectrumError
+from ..plain import freeze_fields
 from ..plain import plain as _plain
+from ..symmetry import predict_electronic  # re-exported: one module per technique
 from ..verdict import TechniqueVerdict
 from .vibrational import find_bands
 
@@ -55,10 +55,6 @@ CAVEAT = (f"qualitative: Hückel gap turned into eV with |beta| = {HUCKEL_BETA_E
           "(assumed); the lowest excitation may be forbidden and solvent shifts the onset.")
 
 
-def predict_electronic(cage_or_fingerprint: Any):
-    """Hückel prediction of a cage (re-exported from :mod:`cageprint.symmetry`)."""
-    return symmetry.predict_electronic(cage_or_fingerprint)
-
 
 @dataclass(frozen=True)
 class UvVisObservation:
@@ -74,9 +70,7 @@ class UvVisObservation:
         object.__setattr__(self, "onset_nm",
                            None if self.onset_nm is None else float(self.onset_nm))
         object.__setattr__(self, "bands_nm", tuple(sorted(float(b) for b in self.bands_nm)))
-        object.__setattr__(self, "region", (float(self.region[0]), float(self.region[1])))
-        object.__setattr__(self, "thresholds", MappingProxyType(dict(self.thresholds)))
-        object.__setattr__(self, "diagnostics", MappingProxyType(dict(self.diagnostics)))
+        freeze_fields(self, "region", "thresholds", "diagnostics")
 
     @property
     def onset_ev(self) -> float | None:

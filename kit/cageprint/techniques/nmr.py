@@ -36,16 +36,16 @@ import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from fractions import Fraction
-from types import MappingProxyType
 from typing import Any
 
 import numpy as np
 
-from .. import symmetry
 from ..candidate import Candidate
 from ..errors import EvidenceError, SpectrumError
+from ..plain import freeze_fields
 from ..plain import plain as _plain
 from ..spectra import integrate, pick_peaks, references
+from ..symmetry import predict_nmr  # re-exported: one module per technique
 from ..verdict import TechniqueVerdict
 from .nmr_match import _fit, _orbit_sizes, _partner_list
 from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
@@ -111,10 +111,6 @@ NMR_LOST_ALLOWANCE = 0.3
 
 
 
-def predict_nmr(cage_or_fingerprint: Any):
-    """13C orbit prediction of a cage (re-exported from :mod:`cageprint.symmetry`)."""
-    return symmetry.predict_nmr(cage_or_fingerprint)
-
 
 @dataclass(frozen=True)
 class NmrObservation:
@@ -154,11 +150,7 @@ class NmrObservation:
                                     f"{len(self.positions)} lines; expected one per line")
             object.__setattr__(self, "integrals", ints)
         object.__setattr__(self, "snr", tuple(float(s) for s in self.snr))
-        object.__setattr__(self, "excluded",
-                           tuple(MappingProxyType(dict(e)) for e in self.excluded))
-        object.__setattr__(self, "region", (float(self.region[0]), float(self.region[1])))
-        object.__setattr__(self, "thresholds", MappingProxyType(dict(self.thresholds)))
-        object.__setattr__(self, "diagnostics", MappingProxyType(dict(self.diagnostics)))
+        freeze_fields(self, "excluded", "region", "thresholds", "diagnostics")
 
     @property
     def n_lines(self) -> int:

@@ -11,17 +11,17 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
-from types import MappingProxyType
 from typing import Any
 
 import numpy as np
 
-from .. import symmetry
 from ..candidate import Candidate
 from ..errors import EvidenceError, SpectrumError
+from ..plain import freeze_fields
 from ..plain import plain as _plain
 from ..spectra import pick_peaks
 from ..spectra.references import IR_ARTEFACTS
+from ..symmetry import predict_vibrational  # re-exported: one module per technique
 from ..verdict import RULED_OUT_SCORE, TechniqueVerdict
 
 __all__ = [
@@ -61,10 +61,6 @@ EXTRA_BAND_COST = 1.5
 FEWER_BAND_WEIGHT = 1.0
 
 
-def predict_vibrational(cage_or_fingerprint: Any):
-    """Vibrational prediction of a cage (re-exported from :mod:`cageprint.symmetry`)."""
-    return symmetry.predict_vibrational(cage_or_fingerprint)
-
 
 @dataclass(frozen=True)
 class VibrationalObservation:
@@ -83,11 +79,7 @@ class VibrationalObservation:
             raise EvidenceError(f"technique must be 'ir' or 'raman'; got {self.technique!r}")
         object.__setattr__(self, "positions", tuple(float(p) for p in self.positions))
         object.__setattr__(self, "heights", tuple(float(h) for h in self.heights))
-        object.__setattr__(self, "excluded",
-                           tuple(MappingProxyType(dict(e)) for e in self.excluded))
-        object.__setattr__(self, "region", (float(self.region[0]), float(self.region[1])))
-        object.__setattr__(self, "thresholds", MappingProxyType(dict(self.thresholds)))
-        object.__setattr__(self, "diagnostics", MappingProxyType(dict(self.diagnostics)))
+        freeze_fields(self, "excluded", "region", "thresholds", "diagnostics")
 
     @property
     def n_bands(self) -> int:

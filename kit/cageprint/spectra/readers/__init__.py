@@ -179,6 +179,7 @@ def load_spectrum(
     Returns
     -------
     Spectrum
+        With ``meta["source"]``, ``meta["sha256"]`` of the bytes and ``meta["format"]``.
 
     Raises
     ------
