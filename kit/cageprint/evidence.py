@@ -214,10 +214,14 @@ class _Scored:
 
 
 def _score(i: int, per: Mapping[str, Sequence[TechniqueVerdict]], w: Mapping[str, float],
-           with_data: tuple[str, ...]) -> _Scored:
+           labels: Mapping[str, str]) -> _Scored:
+    """Weighted total, ruled-out flag, worst verdict and reasons of candidate ``i``.
+
+    ``labels`` maps each technique with data to its short label.
+    """
     total, out, worst = 0.0, False, "consistent"
     reasons: list[str] = []
-    for t in with_data:
+    for t, short in labels.items():
         v = per[t][i]
         if v.verdict == "no data" or w[t] == 0:
             continue
@@ -225,8 +229,8 @@ def _score(i: int, per: Mapping[str, Sequence[TechniqueVerdict]], w: Mapping[str
         out = out or v.ruled_out
         if VERDICTS.index(v.verdict) > VERDICTS.index(worst):
             worst = v.verdict
-        reasons.extend(f"{short_label(t)}: {s}" for s in v.reasons[:2])
-    return _Scored(i, total, out, worst if with_data else "no data", tuple(reasons))
+        reasons.extend(f"{short}: {s}" for s in v.reasons[:2])
+    return _Scored(i, total, out, worst if labels else "no data", tuple(reasons))
 
 
 def _tie_reason(group: list[_Scored], cands: Sequence[Candidate], weighted: list[str],
@@ -300,7 +304,8 @@ def rank(
             raise EvidenceError(f"verdicts[{t!r}] has {len(per[t])} entries for "
                                 f"{len(cands)} candidates; expected one per candidate")
     with_data = tuple(t for t in order if any(v.verdict != "no data" for v in per[t]))
-    scored = [_score(i, per, w, with_data) for i in range(len(cands))]
+    labels = {t: short_label(t) for t in with_data}
+    scored = [_score(i, per, w, labels) for i in range(len(cands))]
     # order: not ruled out first, then by score (best first); identical keys keep
     # their relative order only for display - they share the rank
     scored.sort(key=lambda s: (s.out, -s.total))
