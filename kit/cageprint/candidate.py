@@ -8,7 +8,7 @@ technique's registry entry (:mod:`cageprint.techniques.registry`).
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Any
@@ -87,6 +87,20 @@ class Candidate:
             object.__setattr__(
                 self, "label", f"{self.formula} isomer {self.isomer} ({self.point_group})"
             )
+
+    def memo(self, key: str, compute: Callable[[Candidate], Any]) -> Any:
+        """``compute(self)``, computed once per candidate and key (candidates are immutable).
+
+        The technique registry keeps each technique's signature here, so a
+        re-rank does not recompute them.
+        """
+        cache = self.__dict__.get("_memo")
+        if cache is None:
+            cache = {}
+            object.__setattr__(self, "_memo", cache)
+        if key not in cache:
+            cache[key] = compute(self)
+        return cache[key]
 
     @property
     def pattern(self) -> str:

@@ -42,6 +42,8 @@ __all__ = [
 #: two overall scores closer than this (absolute, in score units) are a tie
 TIE_TOL = 1e-6
 
+_ORDER = {v: i for i, v in enumerate(VERDICTS)}  # verdict word -> badness
+
 
 @dataclass(frozen=True)
 class RankedRow:
@@ -202,9 +204,9 @@ def _weights(weights: Mapping[str, float] | None, order: tuple[str, ...]) -> dic
     return w
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class _Scored:
-    """One candidate's overall score before ranking (internal)."""
+    """One candidate's overall score before ranking (internal; slots: made 450 times a rank)."""
 
     index: int
     total: float
@@ -226,8 +228,8 @@ def _score(i: int, per: Mapping[str, Sequence[TechniqueVerdict]], w: Mapping[str
         if v.verdict == "no data" or w[t] == 0:
             continue
         total += w[t] * v.score
-        out = out or v.ruled_out
-        if VERDICTS.index(v.verdict) > VERDICTS.index(worst):
+        out = out or v.verdict == "ruled out"
+        if _ORDER[v.verdict] > _ORDER[worst]:
             worst = v.verdict
         reasons.extend(f"{short}: {s}" for s in v.reasons[:2])
     return _Scored(i, total, out, worst if labels else "no data", tuple(reasons))
@@ -241,7 +243,7 @@ def _tie_reason(group: list[_Scored], cands: Sequence[Candidate], weighted: list
     if not weighted:
         return "no weighted evidence"
     techs = [registry.get(t) for t in weighted]
-    same = [t for t in techs if len({t.signature(cands[s.index]) for s in group}) == 1]
+    same = [t for t in techs if len({t.signature_of(cands[s.index]) for s in group}) == 1]
     if len(same) == len(techs):
         return ", ".join(t.tie_note(cands[group[0].index]) for t in same)
     return f"overall scores equal within {tie_tol:g}"
@@ -351,4 +353,4 @@ def verdicts_by_signature(technique: str, candidates: Sequence[Candidate],
     verdict) is filled and reused when given.  Candidates with equal
     signatures get the very same verdict, so they tie exactly.
     """
-    return map_by_signature(candidates, registry.get(technique).signature, compare, cache)
+    return map_by_signature(candidates, registry.get(technique).signature_of, compare, cache)

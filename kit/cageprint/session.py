@@ -144,6 +144,7 @@ class Session:
         self._obs: dict[str, Any] = {}
         self._cmp: dict[str, dict[Hashable, TechniqueVerdict]] = {}
         self._verdicts: dict[str, list[TechniqueVerdict]] = {}
+        self._memo: dict[str, Any] = {}  # per candidate set (CompareContext.memo)
         self._ranking: Ranking | None = None
         for t, w in (weights or {}).items():
             self.set_weight(t, w)
@@ -389,7 +390,8 @@ class Session:
         obs = self.observation(technique)  # may be None for a technique that needs no input
         cache = self._cmp.setdefault(technique, {})
         before = len(cache)
-        ctx = CompareContext(technique, obs, self.settings(technique), self.candidates)
+        ctx = CompareContext(technique, obs, self.settings(technique), self.candidates,
+                             memo=self._memo)
         out = registry.compare_all(tech, ctx, cache)
         self.stats[f"compare:{technique}"] += len(cache) - before
         self._verdicts[technique] = out
@@ -430,6 +432,8 @@ class Session:
         self._drop_comparisons(technique)
 
     def _drop_comparisons(self, technique: str | None = None) -> None:
+        if technique is None:  # the candidates changed
+            self._memo = {}
         for t in [technique] if technique else list(self._cmp) + list(self._verdicts):
             self._cmp.pop(t, None)
             self._verdicts.pop(t, None)

@@ -35,6 +35,7 @@ import dataclasses
 import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
+from types import MappingProxyType
 from typing import Any, ClassVar, TypeVar
 
 from .errors import SettingsError
@@ -51,6 +52,8 @@ KINDS = ("float", "int", "bool", "text", "span", "floats", "names", "windows",
 SNR_CHOICES: tuple[float, ...] = (3.0, 5.0, 10.0, 20.0, 50.0, 100.0, 200.0)
 
 S = TypeVar("S", bound="Settings")
+#: settings class -> its field specs (dataclass fields never change after the class is made)
+_SPECS: dict[type, Mapping[str, Spec]] = {}
 
 
 @dataclass(frozen=True)
@@ -244,10 +247,14 @@ class Settings:
             object.__setattr__(self, name, self.check(name, getattr(self, name)))
 
     @classmethod
-    def specs(cls) -> dict[str, Spec]:
-        """Field name -> :class:`Spec`, in declaration order."""
-        return {f.name: f.metadata["setting"] for f in dataclasses.fields(cls)  # type: ignore[arg-type]
-                if "setting" in f.metadata}
+    def specs(cls) -> Mapping[str, Spec]:
+        """Field name -> :class:`Spec`, in declaration order (read once per class)."""
+        found = _SPECS.get(cls)
+        if found is None:
+            found = _SPECS[cls] = MappingProxyType(
+                {f.name: f.metadata["setting"] for f in dataclasses.fields(cls)  # type: ignore[arg-type]
+                 if "setting" in f.metadata})
+        return found
 
     @classmethod
     def spec(cls, name: str) -> Spec:

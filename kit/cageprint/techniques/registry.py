@@ -67,12 +67,17 @@ class CompareContext:
     candidates : tuple of Candidate
         The whole candidate set (for verdicts relative to the others, or
         second components of a mixture).
+    memo : dict
+        Scratch space for what depends on the candidate set alone (kept by
+        the session until the candidates change), e.g. the distinct 13C
+        patterns a mixture search tries.
     """
 
     technique: str
     observation: Any
     settings: Settings
     candidates: tuple[Candidate, ...] = ()
+    memo: dict[str, Any] = field(default_factory=dict, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
@@ -149,7 +154,16 @@ class Technique:
     predict: Callable[[Cage, Fingerprint], Any] | None = None
     reverse_x: bool = False
 
+    def signature_of(self, candidate: Candidate) -> Hashable:
+        """``signature(candidate)``, computed once per candidate."""
+        return candidate.memo(self._memo_key, self.signature)
+
+    @property
+    def _memo_key(self) -> str:
+        return self.__dict__["_memo_key_value"]
+
     def __post_init__(self) -> None:
+        object.__setattr__(self, "_memo_key_value", f"signature:{self.key}:{id(self.signature)}")
         if self.compare is None and self.compare_all is None:
             raise EvidenceError(f"technique {self.key!r}: give compare or compare_all")
         if self.settings.technique != self.key:
@@ -228,8 +242,8 @@ def compare_all(technique: Technique, context: CompareContext,
         return technique.compare_all(context, cache)
     compare = technique.compare
     assert compare is not None  # checked when the record was made
-    return map_by_signature(context.candidates, technique.signature,
-                                 lambda c: compare(c, context), cache)
+    return map_by_signature(context.candidates, technique.signature_of,
+                            lambda c: compare(c, context), cache)
 
 
 # ---------------------------------------------------------------- the built-in techniques
@@ -256,15 +270,15 @@ def nmr_partners(candidates: Iterable[Candidate]) -> list[tuple[tuple[int, ...],
 
 def _nmr_all(context: CompareContext,
              cache: MutableMapping[Hashable, TechniqueVerdict]) -> list[TechniqueVerdict]:
-    partners: list[tuple[tuple[int, ...], str]] = []
     options = context.settings.values("compare")
 
     def one(c: Candidate) -> TechniqueVerdict:
-        if not partners:
-            partners.extend(nmr_partners(context.candidates))
+        partners = context.memo.get("nmr_partners")
+        if partners is None:
+            partners = context.memo["nmr_partners"] = nmr_partners(context.candidates)
         return compare_nmr(c, context.observation, partners=partners, **options)
 
-    return map_by_signature(context.candidates, _nmr_signature, one, cache)
+    return map_by_signature(context.candidates, get("nmr").signature_of, one, cache)
 
 
 def _nmr_signature(c: Candidate) -> tuple[int, ...]:

@@ -52,6 +52,7 @@ class ComparisonPanel:
         self.session = session
         self.technique = technique
         self.tech = registry.get(technique)
+        self._syncing = False
         self.problem = Problem("cp-compare-error")
         spec = session.spectra.get(technique)
         if spec is None:
@@ -120,6 +121,8 @@ class ComparisonPanel:
 
     # -- updates -------------------------------------------------------------
     def _changed(self, change: dict) -> None:
+        if self._syncing:  # a control being set to the session's value
+            return
         owner = change["owner"]
         name = next((n for n, c in self.controls.items() if owner in c.parts), None)
         self.update(None if name is None else {name: self.controls[name].value()})
@@ -127,12 +130,14 @@ class ComparisonPanel:
     def _show_session_settings(self) -> None:
         """Set every control to the value the session uses, without echoing it back."""
         settings = self.session.settings(self.technique)
-        for c in self.controls.values():
-            c.unobserve(self._changed)
-            try:
-                c.show(getattr(settings, c.name))
-            finally:
-                c.observe(self._changed)
+        self._syncing = True
+        try:
+            for c in self.controls.values():
+                value = getattr(settings, c.name)
+                if not c.shows(value):
+                    c.show(value)
+        finally:
+            self._syncing = False
 
     def update(self, changed: dict | None = None) -> None:
         """Push changed settings to the session, then redraw controls, table and figure."""

@@ -87,6 +87,20 @@ class SettingControl:
             return tuple(float(v) for v in self.widget.value)
         return None if self.widget.value == _NONE else self.widget.value
 
+    def shows(self, value: Any) -> bool:
+        """True when the control already shows ``value`` (nothing to redraw)."""
+        kind = self.spec.control
+        if kind == "choices":
+            return float(self.widget.value) == float(value)
+        if kind == "log":
+            assert self.switch is not None
+            return self.switch.value == (value is not None) and (
+                value is None or float(self.widget.value) == float(value))
+        if kind == "span":
+            return tuple(self.widget.value) == self._clamp(value, self.widget.min,
+                                                           self.widget.max)
+        return self.widget.value == (_NONE if value is None else value)
+
     def show(self, value: Any) -> None:
         """Show the value the session uses (callers hold their observers meanwhile)."""
         kind = self.spec.control
@@ -109,10 +123,6 @@ class SettingControl:
     def observe(self, handler: Callable[[dict], None]) -> None:
         for part in self.parts:
             part.observe(handler, names=["value"])
-
-    def unobserve(self, handler: Callable[[dict], None]) -> None:
-        for part in self.parts:
-            part.unobserve(handler, names=["value"])
 
 
 def build_controls(settings: Settings,
