@@ -476,6 +476,9 @@ class C13Fit:
         Root-mean-square residual, in the units of the intensities.
     n_peaks : int
         Number of measured peaks used.
+    c13_err : float
+        Standard uncertainty of ``c13`` (NaN with fewer than 3 peaks): see
+        :func:`fit_c13`.
     """
 
     c13: float
@@ -483,6 +486,7 @@ class C13Fit:
     cosine: float
     rms: float
     n_peaks: int
+    c13_err: float = float("nan")
 
 
 def _agg_on_nominal(f: Formula, c: float, nominals: np.ndarray) -> np.ndarray:
@@ -508,6 +512,12 @@ def fit_c13(
     the theoretical aggregated envelope at fraction p, times a scale solved
     by linear least squares, is fitted to the intensities by a bounded scalar
     least-squares search over p.
+
+    The uncertainty ``c13_err`` is the least-squares standard error: the
+    covariance ``s2 * inv(J.T @ J)`` of the two parameters (p, scale), with
+    ``J`` the Jacobian of the model at the optimum (p by central differences)
+    and ``s2 = RSS / (n - 2)`` the residual variance, so it grows with the
+    misfit of the envelope (noise, blended or clipped peaks).
 
     Parameters
     ----------
@@ -557,8 +567,27 @@ def fit_c13(
         method="bounded",
         options={"xatol": 1e-6},
     )
-    r, s, t = resid(res.x)
+    p = float(res.x)
+    r, s, t = resid(p)
     cos = float(t @ y / (np.linalg.norm(t) * np.linalg.norm(y) + 1e-300))
     return C13Fit(
-        c13=float(res.x), scale=s, cosine=cos, rms=float(np.sqrt(np.mean(r**2))), n_peaks=x.size
+        c13=p, scale=s, cosine=cos, rms=float(np.sqrt(np.mean(r**2))), n_peaks=x.size,
+        c13_err=_c13_error(f, nominals, p, s, t, r, bounds),
     )
+
+
+def _c13_error(f: Formula, nominals, p, s, t, r, bounds) -> float:
+    """Least-squares standard error of the fitted fraction (see :func:`fit_c13`)."""
+    n = nominals.size
+    if n < 3 or s <= 0:
+        return float("nan")
+    h = max(1e-5, 1e-3 * p)
+    lo, hi = max(bounds[0], p - h), min(bounds[1], p + h)
+    dt = (_agg_on_nominal(f, hi, nominals) - _agg_on_nominal(f, lo, nominals)) / (hi - lo)
+    jac = np.column_stack([s * dt, t])
+    s2 = float(r @ r) / (n - 2)
+    try:
+        cov = s2 * np.linalg.inv(jac.T @ jac)
+    except np.linalg.LinAlgError:
+        return float("nan")
+    return float(np.sqrt(max(cov[0, 0], 0.0)))

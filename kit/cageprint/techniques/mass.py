@@ -22,7 +22,7 @@ import numpy as np
 from ..candidate import Candidate
 from ..errors import FormulaError, SpectrumError
 from ..formula import CLUSTER_CHARGES, Formula, cage_charge, parse_formula
-from ..isotopes import C13_NATURAL, Envelope, _check_charge, isotope_envelope, neutral_mass
+from ..isotopes import C13_NATURAL, Envelope, _check_charge, isotope_envelope
 from ..spectra.model import Spectrum
 from ..verdict import RULED_OUT_SCORE, TechniqueVerdict
 from .mass_match import (
@@ -30,18 +30,24 @@ from .mass_match import (
     ENVELOPE_MIN_SCORE,
     MASS_TOL_FLOOR,
     MASS_TOL_PPM,
-    PEEL_TRY_BELOW,
     MassMatch,
     ObservedEnvelope,
-    _envelope_cached,
-    _explained,
-    _greedy,
-    _peel,
     _text,
     candidate_formulas,
     score_formula,
 )
+from .mass_observe import (
+    MAX_CALIBRATION_OFFSET,
+    Unexplained,
+    account_regions,
+    chain_unexplained,
+    fwhm_coefficient,
+    stick_calibration,
+    stick_species,
+)
 from .mass_peaks import MIN_RELATIVE_INTENSITY, PEAK_SNR, _centroid_profile, _chains
+from .mass_profile import PROFILE_BELOW_R, find_regions
+from .mass_profile import calibrate as profile_calibration
 
 __all__ = [
     "MASS_TOL_PPM",
@@ -52,7 +58,9 @@ __all__ = [
     "MAX_CALIBRATION_OFFSET",
     "CLUSTER_CHARGES",
     "CAGE_SIZES",
+    "PROFILE_BELOW_R",
     "MassSpecies",
+    "Unexplained",
     "ObservedEnvelope",
     "MassObservation",
     "MassMatch",
@@ -68,16 +76,20 @@ __all__ = [
 
 #: a species below this relative abundance is "minor" (its cage only "possible")
 MASS_MINOR_ABUNDANCE = 0.1
-#: a C_n ladder member used for calibration must fit this well
-CALIBRANT_MIN_SCORE = 0.97
-#: largest calibration offset searched for, in m/z units
-MAX_CALIBRATION_OFFSET = 0.5
 #: a weak peak's mass tolerance is at least this many times its centroid uncertainty FWHM/(S/N)
 CENTROID_UNCERTAINTY_FACTOR = 2.0
 #: a "profile" whose median point spacing exceeds this (m/z) is read as a peak list
 PEAK_LIST_STEP = 0.1
+#: without a peak width to measure, a line is taken to span this many points at its FWHM
+FALLBACK_POINTS_PER_FWHM = 5.0
 #: a species is a C2-loss fragment when at most this fraction of its C2-richer neighbour
 FRAGMENT_MAX_RATIO = 0.25
+
+def _ladder_c13(calib) -> float | None:
+    """Median 13C fraction fitted to the C_n calibrants (profile route), if any."""
+    ps = [c["c13"] for c in calib if "c13" in c]
+    return float(np.median(ps)) if ps else None
+
 
 # ------------------------------------------------------------------ result types
 
@@ -116,7 +128,14 @@ class MassSpecies:
     intensity : float
         Envelope total in the spectrum's intensity units.
     c13 : float
-        13C fraction used for (or fitted to) the theoretical envelope.
+        13C fraction used for (or fitted to) the theoretical envelope; also
+        readable as ``c13_fraction``.
+    c13_fraction_err : float or None
+        Standard uncertainty of a fitted fraction (``c13="fit"``; None otherwise).
+        Centroided envelopes: least-squares standard error from the fit's
+        covariance scaled by the residual variance (:func:`~cageprint.isotopes.fit_c13`);
+        profiles: the same from the curvature of the residual sum of squares,
+        one measurement per FWHM.
     """
 
     formula: str
@@ -133,6 +152,12 @@ class MassSpecies:
     n_peaks: int = 0
     intensity: float = 0.0
     c13: float = C13_NATURAL
+    c13_fraction_err: float | None = None
+
+    @property
+    def c13_fraction(self) -> float:
+        """The 13C fraction of the species' envelope (the same as ``c13``)."""
+        return self.c13
 
     def to_dict(self) -> dict[str, Any]:
         d = asdict(self)
@@ -166,8 +191,12 @@ class MassObservation:
         Peak areas (profile data) or listed intensities (peak lists): the
         intensities the envelopes are fitted to.
     diagnostics : mapping
-        Thresholds, noise, baseline, calibration offset and calibrants,
-        unexplained envelopes and unassigned peaks.
+        Thresholds, noise, route ("peaks" or "profile") and resolving power,
+        calibration offset and calibrants, unexplained envelopes (as dicts) and
+        unassigned peaks.
+    unexplained : tuple of Unexplained
+        Envelopes above the noise threshold that no species explains (m/z,
+        relative height), tallest first.
     """
 
     species: tuple[MassSpecies, ...]
@@ -176,6 +205,7 @@ class MassObservation:
     peaks_intensity: np.ndarray
     peaks_area: np.ndarray | None = None
     diagnostics: Any = field(default_factory=dict)
+    unexplained: tuple[Unexplained, ...] = ()
 
     @property
     def formulas(self) -> list[str]:
@@ -192,65 +222,16 @@ class MassObservation:
         import pandas as pd
 
         cols = ["formula", "charge", "mz", "relative_abundance", "error_ppm", "envelope_score",
-                "cage_n", "cage_charge", "kind", "n_peaks", "c13", "alternatives", "reasons"]
+                "cage_n", "cage_charge", "kind", "n_peaks", "c13", "c13_fraction",
+                "c13_fraction_err", "alternatives", "reasons"]
         rows = []
         for s in self.species:
             d = s.to_dict()
+            d["c13_fraction"] = s.c13_fraction
             d["alternatives"] = "; ".join(s.alternatives)
             d["reasons"] = " ".join(s.reasons)
             rows.append({c: d[c] for c in cols})
         return pd.DataFrame(rows, columns=cols)
-
-
-# ------------------------------------------------------------------ calibration
-
-
-def _ladder_residual(z, mz, inten, c13=C13_NATURAL):
-    """Fit the best C_n (n even) to an envelope without a mass tolerance.
-
-    ``c13`` is the 13C fraction, or ``"fit"`` to take, for each alignment, the
-    fraction that fits the envelope best.  Returns (cosine, residual in m/z, n)
-    of the best alignment, or None.
-    """
-    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
-    from scipy.optimize import minimize_scalar
-
-    masses = neutral_mass(mz, z)
-    b = int(np.argmax(inten))
-    norm_i = float(np.linalg.norm(inten))
-
-    def fit(n_try, nominals, p):
-        env = _envelope_cached(f"C{n_try}", 0, round(float(p), 5))
-        k = nominals - env.nominal[0]
-        t = np.zeros(k.size)
-        ok = (k >= 0) & (k < env.nominal.size)
-        t[ok] = env.abundance[k[ok]]
-        if t.sum() <= 0:
-            return None
-        cos = float(t @ inten) / float(np.linalg.norm(env.abundance) * norm_i)
-        w = t * inten
-        resid = float(np.sum(w[ok] * (masses[ok] - env.mz[k[ok]])) / np.sum(w[ok])) / abs(z)
-        return cos, resid, n_try
-
-    best = None
-    for s in (-1, 0, 1):
-        nb = int(np.round(masses[b])) + s
-        nominals = np.round(masses - masses[b]).astype(int) + nb
-        n = (nb // 24) * 2
-        for n_try in (n, n - 2):
-            if n_try < CAGE_SIZES[0] or n_try > CAGE_SIZES[-1]:
-                continue
-            p = c13
-            if c13 == "fit":
-                res = minimize_scalar(
-                    lambda q, n_try=n_try, nominals=nominals: -(
-                        (fit(n_try, nominals, q) or (0.0,))[0]),
-                    bounds=(0.0, 0.5), method="bounded", options={"xatol": 1e-4})
-                p = float(res.x)
-            r = fit(n_try, nominals, p)
-            if r is not None and (best is None or r[0] > best[0] + 1e-9):
-                best = r
-    return best
 
 
 # ------------------------------------------------------------------ observe
@@ -337,7 +318,9 @@ def observe_mass(
     if read_as == "profile" and x.size > 1 and float(np.median(np.diff(x))) > PEAK_LIST_STEP:
         read_as = "peaks"  # points further apart than any profile sampling: a stick list
     if read_as == "profile":
-        pmz, parea, papex, noise, thr, punc = _centroid_profile(x, y, snr)
+        peaks = _centroid_profile(x, y, snr)
+        pmz, parea, papex, punc = peaks.mz, peaks.area, peaks.apex, peaks.uncertainty
+        noise, thr = peaks.noise, peaks.threshold
     else:
         keep = y >= MIN_RELATIVE_INTENSITY * (y.max() if y.size else 0)
         pmz, parea = x[keep & (y > 0)], y[keep & (y > 0)]
@@ -352,50 +335,47 @@ def observe_mass(
     # weak peaks: the tolerance widens to their centroid uncertainty (FWHM / S/N)
     pfloor = np.maximum(floor, CENTROID_UNCERTAINTY_FACTOR * punc)
     chains, free = _chains(pmz, parea, ppm, pfloor)
+    c13_search = c13 if c13 == "fit" else c13_fixed
 
-    # calibration offset from the C_n ladder
-    calib: list[dict[str, Any]] = []
-    if calibrate is True:
-        for z, members in chains:
-            r = _ladder_residual(sign * z, pmz[members], parea[members],
-                                 c13 if c13 == "fit" else c13_fixed)
-            if r and r[0] >= CALIBRANT_MIN_SCORE and abs(r[1]) <= MAX_CALIBRATION_OFFSET:
-                calib.append({"formula": f"C{r[2]}", "charge": sign * z,
-                              "offset": r[1], "score": r[0]})
-        offset = float(np.median([c["offset"] for c in calib])) if calib else 0.0
-        spread = (float(np.median(np.abs([c["offset"] - offset for c in calib])))
-                  if len(calib) > 1 else float("nan"))
-    elif calibrate is False:
-        offset, spread = 0.0, float("nan")
-    else:
-        offset, spread = float(calibrate), float("nan")
-    cmz = pmz - offset
-
+    profile = read_as == "profile"
+    coef = fwhm_coefficient(peaks) if profile else float("nan")
+    if profile and not coef > 0:  # no measurable width (single-point spikes)
+        coef = FALLBACK_POINTS_PER_FWHM * float(np.median(np.diff(x)) / np.median(x))
+    r_data = peaks.smoothing / coef if profile and coef > 0 else float("nan")
+    route = "profile" if profile and r_data < PROFILE_BELOW_R else "peaks"
+    regions = find_regions(x, peaks.y, noise, thr, coef) if profile else []
+    envelopes = [ObservedEnvelope(sign * z, pmz[m] - 0.0, parea[m], pfloor[m]) for z, m in chains]
     found: list[dict[str, Any]] = []
-    envelopes: list[ObservedEnvelope] = []
-    unexplained: list[dict[str, Any]] = []
-    for z, members in chains:
-        zs = sign * z
-        emz, eint = cmz[members], parea[members]
-        efl = pfloor[members]
-        envelopes.append(ObservedEnvelope(zs, emz, eint, efl))
-        c13_search = c13 if c13 == "fit" else c13_fixed
-        greedy = _greedy(zs, emz, eint, ppm, efl, c13_search, metals=metals, snr=snr,
-                         noise=noise)
-        chosen = greedy
-        fit_greedy = _explained(greedy, emz, eint, ppm, efl)
-        if c13 != "fit" and fit_greedy < PEEL_TRY_BELOW:
-            peeled = _peel(zs, emz, eint, ppm, efl, c13_fixed, metals=metals)
-            if peeled and _explained(peeled, emz, eint, ppm, efl) > fit_greedy + 0.005:
-                chosen = peeled
-        if not chosen:
-            unexplained.append({"charge": zs, "mz": [round(v, 5) for v in emz.tolist()],
-                                "reason": "no candidate formula within tolerance "
-                                f"({ppm} ppm, floor {floor}) and envelope score "
-                                f">= {ENVELOPE_MIN_SCORE}; raise ppm/floor for "
-                                "low-resolution data, pass c13='fit' for enriched samples"})
-        found.extend(chosen)
+    calib: Any = []
+    if route == "profile":
+        # blended isotope peaks: offset and resolving power from the C_n profiles
+        coef, offset, calib = profile_calibration(
+            x, peaks.y, regions, sign, coef, max_offset=MAX_CALIBRATION_OFFSET,
+            fit_offset=calibrate is True, c13=c13_search)
+    elif calibrate is True:
+        offset, calib = stick_calibration(chains, pmz, parea, sign, c13_search)
+    if calibrate is False:
+        offset = 0.0
+    elif calibrate is not True:
+        offset = float(calibrate)
+    offsets = [c["offset"] for c in calib]
+    spread = (float(np.median(np.abs(np.subtract(offsets, offset)))) if len(offsets) > 1
+              else float("nan"))
+    cmz = pmz - offset
+    left: list = []
+    if route == "peaks":
+        found, envelopes, left = stick_species(
+            chains, cmz, parea, pfloor, sign, ppm=ppm, floor=floor, c13=c13, metals=metals,
+            snr=snr, noise=noise)
+    if profile:
+        found, unexplained = account_regions(
+            x - offset, peaks.y, regions, found, sign=sign, fwhm_coef=coef, threshold=thr,
+            ppm=ppm, floor=floor, c13=c13 if c13 == "fit" else c13_fixed, metals=metals,
+            noise=noise, c13_hint=_ladder_c13(calib) if c13 == "fit" else None)
+    else:
+        unexplained = chain_unexplained(left, float(parea.max()), ppm=ppm, floor=floor)
 
+    r_fit = peaks.smoothing / coef if profile and coef > 0 else float("nan")
     total_max = max((f["match"].scale for f in found), default=1.0) or 1.0
     by_key = {(f["match"].formula, f["match"].charge): f for f in found}
     species = []
@@ -406,8 +386,12 @@ def observe_mass(
         reasons = [
             f"{m.n_matched} isotope peaks spaced 1/{abs(m.charge)} give charge {m.charge:+d}.",
             f"mass error {m.error_ppm:+.2f} ppm (tolerance {ppm} ppm, floor {floor}).",
-            f"envelope cosine {m.envelope_score:.4f} with 13C fraction {m.c13:.4f}.",
+            f"envelope cosine {m.envelope_score:.4f} with 13C fraction {m.c13:.4f}"
+            + (f" +- {m.c13_err:.4f} (fitted)." if m.c13_err is not None else "."),
         ]
+        if f.get("route") == "profile":
+            reasons[0] = (f"isotope peaks blended at resolving power ~{r_fit:.0f}: the envelope "
+                          f"drawn at charge {m.charge:+d} matches the measured profile.")
         if f["shared"]:
             reasons.append("overlaps another envelope; separated by subtracting envelopes.")
         if f["alts"]:
@@ -434,7 +418,7 @@ def observe_mass(
             cage_n=pf.cage_n + (dict(pf.outer).get("N", 0) if kind == "heterofullerene" else 0),
             cage_charge=cage_charge(pf),
             kind=kind, reasons=tuple(reasons), alternatives=tuple(f["alts"]),
-            n_peaks=m.n_matched, intensity=m.scale, c13=m.c13,
+            n_peaks=m.n_matched, intensity=m.scale, c13=m.c13, c13_fraction_err=m.c13_err,
         ))
     species.sort(key=lambda s: -s.relative_abundance)
 
@@ -456,13 +440,15 @@ def observe_mass(
         "calibration": ("estimated from the C_n ladder" if calibrate is True and calib
                         else "no C_n ladder found; no correction" if calibrate is True
                         else "given" if calibrate is not False else "off"),
-        "unexplained_envelopes": tuple(unexplained),
+        "route": route,
+        "resolving_power": r_fit,
+        "unexplained_envelopes": tuple(u.to_dict() for u in unexplained),
         "unassigned_peaks": tuple(round(float(v), 5) for v in cmz[free]),
     }
     return MassObservation(
         species=tuple(species), envelopes=tuple(envelopes), peaks_mz=pmz, peaks_intensity=papex,
-        peaks_area=parea,
-        diagnostics=MappingProxyType(diagnostics),
+        peaks_area=parea, diagnostics=MappingProxyType(diagnostics),
+        unexplained=tuple(sorted(unexplained, key=lambda u: -u.relative_height)),
     )
 
 

@@ -8,7 +8,7 @@ scoring of one formula against one envelope (mass error and envelope cosine,
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
@@ -46,6 +46,8 @@ PEEL_TRY_BELOW = 0.995
 #: when summing or subtracting envelopes, a line is put on the nearest peak within this many
 #: m/z units times 1/|z| (blended lines move centroids by more than the mass tolerance)
 PEAK_ASSIGN_TOL = 0.1
+#: with c13="fit", the fitted fraction is kept unless the natural one scores this much better
+FIT_KEEP_MARGIN = 0.01
 #: cage sizes searched, and the largest hydrogen count of a hydride
 CAGE_SIZES = tuple(range(20, 402, 2))
 MAX_HYDROGENS = 36
@@ -147,6 +149,8 @@ class MassMatch:
     c13 : float
     matched : tuple of int
         Indices of the envelope peaks explained.
+    c13_err : float or None
+        Standard uncertainty of a fitted 13C fraction (None when it was not fitted).
     """
 
     formula: str
@@ -159,6 +163,7 @@ class MassMatch:
     n_matched: int
     c13: float
     matched: tuple[int, ...] = ()
+    c13_err: float | None = None
 
 
 def _fl(floor, idx):
@@ -225,8 +230,10 @@ def _match_free_c13(text, z, mz, inten, ppm, floor) -> MassMatch | None:
     second = _match(text, z, mz, inten, ppm, floor, c13=p)
     if second is None:
         return first
-    if first is None or second.score > first.score:
-        return second
+    # the fitted fraction is reported unless it fits clearly worse than the natural one
+    if first is None or second.score >= first.score - FIT_KEEP_MARGIN:
+        err = float(fit.c13_err)
+        return replace(second, c13_err=err if np.isfinite(err) else None)
     return first
 
 

@@ -5,6 +5,8 @@ Helpers of :mod:`cageprint.techniques.mass`; plain functions over numpy arrays.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
 #: a peak must rise this many noise standard deviations above the local baseline
@@ -14,18 +16,30 @@ MIN_RELATIVE_INTENSITY = 1e-4
 #: isotope step (u, neutral mass) used to walk an envelope, and its tolerance
 ISOTOPE_STEP = 1.0017
 ISOTOPE_STEP_TOL = 0.006
+#: a baseline block spans at least this many m/z units
+BASELINE_BLOCK_MZ = 25.0
 #: width of the smoothing Gaussian (FWHM) as a fraction of the typical peak FWHM
 SMOOTH_FRACTION = 0.5
 #: an envelope needs at least this many isotope peaks
 MIN_ISOTOPE_PEAKS = 2
+#: a peak's top part (centroid, width) starts at most this far up its height
+TOP_LEVEL_MAX = 0.8
 
 
 # ------------------------------------------------------------------ peaks
 
 
-def _noise_and_baseline(y: np.ndarray, block: int = 512) -> tuple[float, np.ndarray]:
+def _noise_and_baseline(y: np.ndarray, block: int = 512, span: float = np.inf
+                        ) -> tuple[float, np.ndarray]:
+    """Noise deviation (median of block MADs) and baseline (block medians, interpolated).
+
+    Blocks hold at least ``block`` points and cover at least ``span`` / (number
+    of blocks) of the axis, i.e. at least :data:`BASELINE_BLOCK_MZ`: a block
+    must be mostly baseline even where a blended envelope at low resolving
+    power spans a dozen m/z units.
+    """
     n = y.size
-    nb = max(1, n // block)
+    nb = max(1, min(n // block, int(span // BASELINE_BLOCK_MZ)))
     edges = np.linspace(0, n, nb + 1).astype(int)
     med = np.empty(nb)
     mad = np.empty(nb)
@@ -60,31 +74,106 @@ def _smooth(y, find_peaks, peak_widths, gaussian_filter1d):
     return smoothed, 1.0 / np.sqrt(1.0 + SMOOTH_FRACTION**2)
 
 
-def _centroid_profile(x, y, snr):
+@dataclass(frozen=True, eq=False)
+class ProfilePeaks:
+    """Peaks of a profile spectrum and what was used to find them.
+
+    ``mz`` centroids, ``area`` (apex x FWHM x 1.0645), ``apex`` heights on the
+    spectrum's own axis (baseline included), ``uncertainty`` the centroid
+    uncertainty FWHM / (S/N), ``fwhm`` each peak's width; ``y`` the smoothed,
+    baseline-corrected data the peaks were found on; ``smoothing`` the factor by
+    which the smoothing widened a peak (1 when the data were left as they are).
+    """
+
+    mz: np.ndarray
+    area: np.ndarray
+    apex: np.ndarray
+    noise: float
+    threshold: float
+    uncertainty: np.ndarray
+    fwhm: np.ndarray
+    y: np.ndarray
+    smoothing: float
+
+
+def _valleys(yc, idx):
+    """Index of the lowest point between each peak and its neighbours (or the data ends)."""
+    n = yc.size
+    left = np.empty(idx.size, dtype=int)
+    right = np.empty(idx.size, dtype=int)
+    bounds = np.concatenate(([0], idx, [n - 1]))
+    for k in range(idx.size):
+        a, b, c = bounds[k], bounds[k + 1], bounds[k + 2]
+        left[k] = a + int(np.argmin(yc[a : b + 1])) if b > a else b
+        right[k] = b + int(np.argmin(yc[b : c + 1])) if c > b else b
+    return left, right
+
+
+def _cross(x, y, a, b, level) -> float:
+    """x where the straight line between points ``a`` and ``b`` meets ``level``."""
+    ya, yb = float(y[a]), float(y[b])
+    return float(x[a] + (x[b] - x[a]) * (level - ya) / (yb - ya)) if yb != ya else float(x[a])
+
+
+def _top_windows(x, yc, idx, height):
+    """Centroid and FWHM of each peak from its top part, bounded by the valleys.
+
+    The part of a peak above ``level = max(height / 2, higher valley)`` is used:
+    its weighted centroid (weights ``y - level``) and the width at that level,
+    scaled to a FWHM as for a Gaussian (``w * sqrt(ln 2 / ln(height / level))``).
+    Neighbouring isotope peaks that are only partly resolved (valley above half
+    height, as at R ~ 1500 near m/z 1000) thus keep separate centroids and
+    widths instead of merging into one window across the valley.
+    """
+    vl, vr = _valleys(yc, idx)
+    centre = np.empty(idx.size)
+    fwhm = np.empty(idx.size)
+    for k, i in enumerate(idx):
+        h = float(height[k])
+        level = max(0.5 * h, float(yc[vl[k]]), float(yc[vr[k]]))
+        if level >= TOP_LEVEL_MAX * h:  # a shoulder: no top part to speak of
+            level = TOP_LEVEL_MAX * h
+        lo, hi = int(i), int(i)
+        while lo > vl[k] and yc[lo - 1] > level:
+            lo -= 1
+        while hi < vr[k] and yc[hi + 1] > level:
+            hi += 1
+        xl = _cross(x, yc, lo - 1, lo, level) if lo > 0 and yc[lo - 1] <= level else float(x[lo])
+        xr = (_cross(x, yc, hi + 1, hi, level) if hi < x.size - 1 and yc[hi + 1] <= level
+              else float(x[hi]))
+        ratio = np.log(h / level) if h > level > 0 else np.log(2.0)
+        fwhm[k] = (xr - xl) * np.sqrt(np.log(2.0) / ratio)
+        w = yc[lo : hi + 1] - level
+        centre[k] = float(w @ x[lo : hi + 1] / w.sum()) if hi - lo + 1 >= 5 and w.sum() > 0 \
+            else np.nan
+    return centre, fwhm
+
+
+def _centroid_profile(x, y, snr) -> ProfilePeaks:
     """Centroids, areas and apex heights (with baseline) of the peaks of a profile spectrum.
 
-    Centroid: intensity-weighted mean of the points above half height (weights
-    y - half, so the window edges carry no weight); with fewer than 5 such
-    points, the vertex of a parabola through ln y of the top 3 points (exact
-    for a Gaussian).  Area: height x FWHM x 1.0645 (Gaussian).  Uncertainty:
-    FWHM / (S/N), used to widen the mass tolerance of weak peaks.  Peaks are
-    found after a light matched smoothing (:func:`_smooth`), so S/N refers to
-    the smoothed data.
+    Centroid: intensity-weighted mean of the top part of the peak (see
+    :func:`_top_windows`); with fewer than 5 points there, the vertex of a
+    parabola through ln y of the top 3 points (exact for a Gaussian).  Area:
+    height x FWHM x 1.0645 (Gaussian).  Uncertainty: FWHM / (S/N), used to
+    widen the mass tolerance of weak peaks.  Peaks are found after a light
+    matched smoothing (:func:`_smooth`), so S/N refers to the smoothed data.
     """
     # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.ndimage import gaussian_filter1d
     from scipy.signal import find_peaks, peak_widths
 
     y, apex_factor = _smooth(y, find_peaks, peak_widths, gaussian_filter1d)
-    noise, baseline = _noise_and_baseline(y)
+    noise, baseline = _noise_and_baseline(y, span=float(x[-1] - x[0]))
     yc = y - baseline
     floor = MIN_RELATIVE_INTENSITY * float(yc.max())
     thr = max(snr * noise, floor)
+    smoothing = 1.0 / apex_factor
     idx, _ = find_peaks(yc, height=thr, prominence=thr)
     idx = idx[(idx > 0) & (idx < y.size - 1)]
     if idx.size == 0:
-        return np.empty(0), np.empty(0), np.empty(0), noise, thr, np.empty(0)
-    widths, half, left, right = peak_widths(yc, idx, rel_height=0.5)
+        e = np.empty(0)
+        return ProfilePeaks(e, e, e, noise, thr, e, e, yc, smoothing)
     # three-point Gaussian vertex
     xl, x0, xr = x[idx - 1], x[idx], x[idx + 1]
     tiny = 1e-12 * float(yc.max())
@@ -97,30 +186,13 @@ def _centroid_profile(x, y, snr):
     shift = np.clip(np.where(ok, -b / (2 * np.where(ok, c, -1.0)), 0.0), dl, dr)
     centre = x0 + shift
     height = np.where(ok, np.exp(l0 + b * shift + c * shift**2), y0)
-    # weighted centroid over the points above half height
-    lo = np.ceil(left).astype(int)
-    hi = np.floor(right).astype(int)
-    many = (hi - lo + 1) >= 5
-    if np.any(many):
-        cw = np.concatenate(([0.0], np.cumsum(np.maximum(yc, 0.0))))
-        cwx = np.concatenate(([0.0], np.cumsum(np.maximum(yc, 0.0) * x)))
-        lo_m, hi_m, half_m = lo[many], hi[many] + 1, half[many]
-        cnt = hi_m - lo_m
-        # sum of (y - half) * x and of (y - half) over the window (all points there are >= half)
-        sw = cw[hi_m] - cw[lo_m] - half_m * cnt
-        cx_ = np.concatenate(([0.0], np.cumsum(x)))
-        swx = cwx[hi_m] - cwx[lo_m] - half_m * (cx_[hi_m] - cx_[lo_m])
-        good = sw > 0
-        cm = centre[many]
-        cm[good] = swx[good] / sw[good]
-        centre[many] = cm
-    step = np.interp(idx, np.arange(x.size - 1) + 0.5, np.diff(x))
-    fwhm = widths * step
+    top, fwhm = _top_windows(x, yc, idx, height)
+    centre = np.where(np.isfinite(top), top, centre)
     area = height * fwhm * 1.0644670194312262
     # centroid uncertainty of a noisy Gaussian peak, of order FWHM / (S/N)
     uncertainty = fwhm * noise / np.maximum(height, 1e-300)
     apex = height / apex_factor + baseline[idx]
-    return centre, area, apex, noise, thr, uncertainty
+    return ProfilePeaks(centre, area, apex, noise, thr, uncertainty, fwhm, yc, smoothing)
 
 
 # ------------------------------------------------------------------ envelopes (chains)
