@@ -572,11 +572,11 @@ def fit_c13(
     cos = float(t @ y / (np.linalg.norm(t) * np.linalg.norm(y) + 1e-300))
     return C13Fit(
         c13=p, scale=s, cosine=cos, rms=float(np.sqrt(np.mean(r**2))), n_peaks=x.size,
-        c13_err=_c13_error(f, nominals, p, s, t, r, bounds),
+        c13_err=_c13_error(f, nominals, p, s=s, t=t, r=r, bounds=bounds),
     )
 
 
-def _c13_error(f: Formula, nominals, p, s, t, r, bounds) -> float:
+def _c13_error(f: Formula, nominals, p, *, s, t, r, bounds) -> float:
     """Least-squares standard error of the fitted fraction (see :func:`fit_c13`)."""
     n = nominals.size
     if n < 3 or s <= 0:

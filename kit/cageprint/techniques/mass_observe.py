@@ -21,7 +21,6 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-from scipy.optimize import minimize_scalar, nnls
 
 from ..isotopes import C13_NATURAL, neutral_mass
 from .mass_match import (
@@ -117,6 +116,9 @@ def _ladder_residual(z, mz, inten, c13=C13_NATURAL):
     fraction that fits the envelope best.  Returns (cosine, residual in m/z, n)
     of the best alignment, or None.
     """
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
+    from scipy.optimize import minimize_scalar
+
     masses = neutral_mass(mz, z)
     b = int(np.argmax(inten))
     norm_i = float(np.linalg.norm(inten))
@@ -232,6 +234,9 @@ def account_regions(cx, y, regions: list[Region], found, *, sign, fwhm_coef, thr
     residual signal above the listing level is an :class:`Unexplained` record.
     Returns (found, unexplained).
     """
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
+    from scipy.optimize import nnls
+
     found = list(found)
     top = max((r.height for r in regions), default=1.0) or 1.0
     out: list[Unexplained] = []

@@ -18,7 +18,6 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 
 import numpy as np
-from scipy.optimize import minimize_scalar, nnls
 
 from ..isotopes import C13_NATURAL, isotope_envelope, neutral_mass
 from .mass_match import (
@@ -245,6 +244,9 @@ def _fit_c13(x, y, text, z, fwhm_coef, limit):
     residual variance, with the points of one FWHM counted as one measurement
     (neighbouring profile points are not independent).
     """
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
+    from scipy.optimize import minimize_scalar
+
     def rss(p):
         mz, ab = _lines_free(text, z, p)
         cos, shift, amount, model = fit_shift(x, y, mz, ab, fwhm_coef, limit=limit)
@@ -273,7 +275,7 @@ def _lines_free(text, z, p):
 # ------------------------------------------------------------------ calibration
 
 
-def _best_cn(xs, ys, ns, zs, p, max_offset, r_grid):
+def _best_cn(xs, ys, ns, zs, p, *, max_offset, r_grid):
     """Best (cosine, shift, R, n) over the C_n in ``ns`` and the resolving powers ``r_grid``."""
     best = None
     for n in ns:
@@ -318,10 +320,10 @@ def calibrate(x, y, regions, sign, fwhm_coef0, *, max_offset, fit_offset=True, c
             ns = sorted(n for n in (2 * int(round(m_apex / 24.0)) + d for d in (-2, 0, 2))
                         if CAGE_SIZES[0] <= n <= CAGE_SIZES[-1])
             p = p0
-            best = _best_cn(xs, ys, ns, sign * z, p, max_offset, R_GRID)
+            best = _best_cn(xs, ys, ns, sign * z, p, max_offset=max_offset, r_grid=R_GRID)
             if best is not None and c13 == "fit":
                 p = _fit_c13(xs, ys, f"C{best[3]}", sign * z, 1.0 / best[2], max_offset)[4]
-                best = _best_cn(xs, ys, ns, sign * z, p, max_offset, R_GRID)
+                best = _best_cn(xs, ys, ns, sign * z, p, max_offset=max_offset, r_grid=R_GRID)
             if best is not None and best[0] >= PROFILE_CALIBRANT_MIN:
                 cos, shift, r, n = best
                 out.append({"formula": f"C{n}", "charge": sign * z, "offset": shift,
@@ -427,6 +429,9 @@ def identify_region(x, y, region, sign, fwhm_coef, threshold, *, ppm, floor, c13
     envelope cannot fit better than its noise allows).  Returns (matches, joint
     model on the region).
     """
+    # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
+    from scipy.optimize import nnls
+
     full_xs = x[region.lo:region.hi]
     xs, ys = _thin(full_xs, y[region.lo:region.hi], fwhm_coef)
     cands = _candidates(xs, sign, metals, fwhm_coef)
