@@ -3,13 +3,14 @@
 from __future__ import annotations
 
 import argparse
+import sys
 
 from ..errors import FormulaError
 from ..spectra.readers import load_spectrum
 from ..techniques.mass import MASS_TOL_FLOOR, MASS_TOL_PPM, PEAK_SNR, observe_mass
 
 COLUMNS = ("formula", "charge", "mz", "relative_abundance", "error_ppm", "envelope_score",
-           "kind", "cage_n", "cage_charge")
+           "kind", "cage_n", "cage_charge", "c13_fraction", "c13_fraction_err")
 
 
 def add_parser(sub) -> argparse.ArgumentParser:
@@ -18,7 +19,8 @@ def add_parser(sub) -> argparse.ArgumentParser:
         help="list the cage species found in a mass spectrum",
         description="Find isotope envelopes, charges, the calibration offset and the cage "
         "formulas in a mass spectrum (CSV/text columns, peak list, JCAMP-DX or mzML); print "
-        "one species a row.",
+        "one species a row, then every envelope above the noise that no species explains "
+        "(on standard error with --csv).",
     )
     p.add_argument("file", metavar="FILE", help="mass spectrum file")
     p.add_argument("--csv", action="store_true", help="write comma-separated values")
@@ -56,24 +58,39 @@ def run(args) -> int:
     rows = [
         (s.formula, f"{s.charge:+d}" if not args.csv else str(s.charge), f"{s.mz:.5f}",
          f"{s.relative_abundance:.4f}", f"{s.error_ppm:.2f}", f"{s.envelope_score:.4f}",
-         s.kind, str(s.cage_n), str(s.cage_charge))
+         s.kind, str(s.cage_n), str(s.cage_charge), f"{s.c13_fraction:.4f}",
+         "" if s.c13_fraction_err is None else f"{s.c13_fraction_err:.4f}")
         for s in obs.species
     ]
-    d = obs.diagnostics
+    unexplained = [f"# unexplained envelope at m/z {u.mz:.3f} (height {u.relative_height:.3g} "
+                   f"of the tallest; m/z {u.mz_lo:.1f}-{u.mz_hi:.1f}): {u.reason}"
+                   for u in obs.unexplained]
     if args.csv:
         print(",".join(COLUMNS))
         for r in rows:
             print(",".join(r))
+        for line in unexplained:
+            print(line, file=sys.stderr)
         return 0
-    widths = [max(len(c), *(len(r[i]) for r in rows)) for i, c in enumerate(COLUMNS)]
-    print("  ".join(c.ljust(w) for c, w in zip(COLUMNS, widths, strict=False)))
-    for r in rows:
-        print("  ".join(v.ljust(w) for v, w in zip(r, widths, strict=False)))
-    cal = d["calibration"]
+    shown = [tuple(v or "-" for v in r) for r in rows]
+    widths = [max([len(c), *(len(r[i]) for r in shown)]) for i, c in enumerate(COLUMNS)]
+    print("  ".join(c.ljust(w) for c, w in zip(COLUMNS, widths, strict=True)).rstrip())
+    for r in shown:
+        print("  ".join(v.ljust(w) for v, w in zip(r, widths, strict=True)).rstrip())
+    d = obs.diagnostics
+    route = ("isotope peaks resolved" if d["route"] == "peaks" else
+             f"isotope peaks blended (resolving power ~{d['resolving_power']:.0f}): envelopes "
+             "compared as profiles")
     print(f"# {len(rows)} species; calibration offset {d['calibration_offset']:+.4f} m/z "
-          f"({cal}); {d['n_peaks']} peaks, {len(d['unexplained_envelopes'])} unexplained "
-          "envelopes")
+          f"({d['calibration']}); {d['n_peaks']} peaks; {route}; {len(unexplained)} "
+          "unexplained envelopes")
+    fitted = [s for s in obs.species if s.c13_fraction_err is not None]
+    if fitted:
+        print("# 13C fraction fitted per species: " + ", ".join(
+            f"{s.formula} {s.c13_fraction:.4f} +- {s.c13_fraction_err:.4f}" for s in fitted))
     for s in obs.species:
         if s.alternatives:
             print(f"# {s.formula}: also fits {', '.join(s.alternatives[:6])}")
+    for line in unexplained:
+        print(line)
     return 0

@@ -78,8 +78,10 @@ __all__ = [
 MASS_MINOR_ABUNDANCE = 0.1
 #: a weak peak's mass tolerance is at least this many times its centroid uncertainty FWHM/(S/N)
 CENTROID_UNCERTAINTY_FACTOR = 2.0
-#: a "profile" whose median point spacing exceeds this (m/z) is read as a peak list
-PEAK_LIST_STEP = 0.1
+#: a "profile" whose median point spacing exceeds this (m/z) is read as a peak list: isotope
+#: lines of charge 1-3 lie 1, 0.5, 0.33 apart, while a profile at R 1000 near m/z 700 (FWHM
+#: 0.7) is still sampled every 0.1-0.2 m/z
+PEAK_LIST_STEP = 0.3
 #: without a peak width to measure, a line is taken to span this many points at its FWHM
 FALLBACK_POINTS_PER_FWHM = 5.0
 #: a species is a C2-loss fragment when at most this fraction of its C2-richer neighbour

@@ -230,9 +230,12 @@ def account_regions(cx, y, regions: list[Region], found, *, sign, fwhm_coef, thr
                     floor, c13, metals, noise, c13_hint=None, search=True):
     """Check every region against the species found; search and list what is left.
 
-    A region without a species is searched from its profile (when ``search``);
-    residual signal above the listing level is an :class:`Unexplained` record.
-    Returns (found, unexplained).
+    Regions are taken tallest first.  A region without a species is searched
+    from its profile (when ``search``); with fitted 13C fractions, the fractions
+    of the empty cages found so far replace ``c13_hint`` (they are fitted to the
+    strongest envelopes, so they are the sample's best estimate).  Residual
+    signal above the listing level is an :class:`Unexplained` record.  Returns
+    (found, unexplained).
     """
     # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.optimize import nnls
@@ -240,8 +243,11 @@ def account_regions(cx, y, regions: list[Region], found, *, sign, fwhm_coef, thr
     found = list(found)
     top = max((r.height for r in regions), default=1.0) or 1.0
     out: list[Unexplained] = []
-    for reg in regions:
+    for reg in sorted(regions, key=lambda r: -r.height):
         xs, ys = cx[reg.lo:reg.hi], y[reg.lo:reg.hi]
+        cages = [f["match"].c13 for f in found if f["kind"] == "cage"]
+        if c13 == "fit" and cages:
+            c13_hint = float(np.median(cages))
         members = [f for f in found if _in_region(f["match"], xs[0], xs[-1])]
         if members:
             cols = []

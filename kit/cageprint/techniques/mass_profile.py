@@ -51,6 +51,8 @@ PROFILE_TOL_FWHM = 0.1
 #: different shape the cosine decides.
 PROFILE_SHIFT_LIMIT = 2.0
 PROFILE_SHIFT_PENALTY = 0.02
+#: a fitted shift at this fraction of the limit or beyond is pinned there: no match
+PINNED = 0.98
 #: a second (third) species in a region must reach this fraction of the region's apex
 PROFILE_RESIDUAL_FRACTION = 0.10
 #: residual signal above this fraction of a region's apex (and above the peak threshold)
@@ -59,7 +61,7 @@ UNEXPLAINED_FRACTION = 0.25
 #: an envelope's main lines (at least this fraction of its largest) must lie in the region
 MAIN_LINE_FRACTION = 0.25
 #: a charge z > 1 is considered only where 1/z spans at least this many FWHM
-MIN_SPACING_FWHM = 1.2
+MIN_SPACING_FWHM = 1.0
 #: profiles are fitted on about this many points per FWHM (finer data are thinned)
 FIT_POINTS_PER_FWHM = 8.0
 #: candidates kept for the full fit: within PREFILTER_MARGIN of the best unshifted cosine,
@@ -119,7 +121,9 @@ def find_regions(x, y, noise, threshold, fwhm_coef) -> list[Region]:
     are joined, so the resolved isotope peaks of one envelope form one region;
     runs that never reach the threshold (noise, weak isotope lines) join none.
     Each region is widened by ``REGION_PAD`` m/z plus one FWHM on both sides,
-    to take in the weak outer lines of its envelopes.
+    to take in the weak outer lines of its envelopes (neighbouring widened
+    regions may overlap: a weak envelope next to a strong one keeps its own
+    region, apex and listing level).
 
     Examples
     --------
@@ -149,11 +153,7 @@ def find_regions(x, y, noise, threshold, fwhm_coef) -> list[Region]:
         w = REGION_PAD + fwhm_coef * x[apex]
         lo = int(np.searchsorted(x, x[a] - w))
         hi = int(np.searchsorted(x, x[b - 1] + w, side="right"))
-        if out and lo <= out[-1].hi:  # widened regions touch: one region
-            prev = out.pop()
-            lo = prev.lo
-            if y[prev.apex] > y[apex]:
-                apex = prev.apex
+        # widened regions may overlap; they stay apart, each with its own apex and threshold
         out.append(Region(lo, hi, apex, float(y[apex])))
     return out
 
@@ -315,6 +315,7 @@ def calibrate(x, y, regions, sign, fwhm_coef0, *, max_offset, fit_offset=True, c
     p0 = c13 if c13 != "fit" else C13_NATURAL
     for reg in sorted(regions, key=lambda r: -r.height)[:n_regions]:
         xs, ys = _thin(x[reg.lo:reg.hi], y[reg.lo:reg.hi], fwhm_coef0 / 2)
+        found = []
         for z in (1, 2):
             m_apex = neutral_mass(x[reg.apex], sign * z)
             ns = sorted(n for n in (2 * int(round(m_apex / 24.0)) + d for d in (-2, 0, 2))
@@ -326,9 +327,10 @@ def calibrate(x, y, regions, sign, fwhm_coef0, *, max_offset, fit_offset=True, c
                 best = _best_cn(xs, ys, ns, sign * z, p, max_offset=max_offset, r_grid=R_GRID)
             if best is not None and best[0] >= PROFILE_CALIBRANT_MIN:
                 cos, shift, r, n = best
-                out.append({"formula": f"C{n}", "charge": sign * z, "offset": shift,
-                            "score": cos, "resolving_power": r, "c13": p})
-                break
+                found.append({"formula": f"C{n}", "charge": sign * z, "offset": shift,
+                              "score": cos, "resolving_power": r, "c13": p})
+        if found:  # the charge whose C_n fits best
+            out.append(max(found, key=lambda c: c["score"]))
     if not out:
         return fwhm_coef0, 0.0, ()
     coef = 1.0 / float(np.median([c["resolving_power"] for c in out]))
@@ -378,7 +380,7 @@ def _score_one(xs, ys, text, kind, zs, fwhm_coef, *, ppm, floor, c13, limit_fwhm
             return None
     else:
         cos, shift, amount, model = fit_shift(xs, ys, mz, ab, fwhm_coef, limit=limit)
-    if amount <= 0 or abs(shift) > PROFILE_SHIFT_LIMIT * tol:
+    if amount <= 0 or abs(shift) >= PINNED * limit:  # pinned: its best place lies further out
         return None
     score = cos - PROFILE_SHIFT_PENALTY * (shift / tol) ** 2
     env = _envelope_cached(text, zs, round(p, 6)) if c13 != "fit" else isotope_envelope(
@@ -409,7 +411,7 @@ def _prefer(results, c13_hint=None):
     near = [r for r in results if r[0].score >= top - AMBIGUITY_MARGIN]
     hint = c13_hint if c13_hint is not None else 0.0
     near.sort(key=lambda r: (_KIND_ORDER.index(r[0].kind), abs(r[0].charge),
-                             round(abs(r[0].c13 - hint), 2) if c13_hint is not None else 0,
+                             round(abs(r[0].c13 - hint), 3) if c13_hint is not None else 0,
                              -r[0].score))
     return near[0], [r[0].formula for r in near[1:]
                      if r[0].charge == near[0][0].charge][:6]
