@@ -42,6 +42,7 @@ from .mass_observe import (
     account_regions,
     chain_unexplained,
     fwhm_coefficient,
+    calibration_line,
     stick_calibration,
     stick_species,
 )
@@ -267,8 +268,10 @@ def observe_mass(
         13C fraction of the theoretical envelopes: natural (None), fixed, or
         fitted per species.
     calibrate : bool or float
-        True: estimate a constant m/z offset from the C_n ladder and correct
-        it; False: none; a number: use that offset (measured minus true).
+        True: estimate the m/z offset from the C_n ladder and correct it (an
+        offset, plus a slope in ppm where the calibrants span 100 m/z or more;
+        see :func:`~cageprint.techniques.mass_observe.calibration_line`);
+        False: none; a number: use that constant offset (measured minus true).
     polarity : {"positive", "negative"}, optional
         Default from ``spectrum.meta["polarity"]``, else positive.
     metals : iterable of str, optional
@@ -346,24 +349,25 @@ def observe_mass(
     r_data = peaks.smoothing / coef if profile and coef > 0 else float("nan")
     route = "profile" if profile and r_data < PROFILE_BELOW_R else "peaks"
     regions = find_regions(x, peaks.y, noise, thr, coef) if profile else []
-    envelopes = [ObservedEnvelope(sign * z, pmz[m] - 0.0, parea[m], pfloor[m]) for z, m in chains]
     found: list[dict[str, Any]] = []
     calib: Any = []
     if route == "profile":
-        # blended isotope peaks: offset and resolving power from the C_n profiles
-        coef, offset, calib = profile_calibration(
-            x, peaks.y, regions, sign, coef, max_offset=MAX_CALIBRATION_OFFSET,
-            fit_offset=calibrate is True, c13=c13_search)
+        # blended isotope peaks: resolving power (and offsets) from the C_n profiles
+        coef, _, calib = profile_calibration(
+            x, peaks.y, regions, sign, coef, max_offset=MAX_CALIBRATION_OFFSET, c13=c13_search)
     elif calibrate is True:
-        offset, calib = stick_calibration(chains, pmz, parea, sign, c13_search)
-    if calibrate is False:
-        offset = 0.0
-    elif calibrate is not True:
+        calib = stick_calibration(chains, pmz, parea, sign, c13_search)
+    offset, slope, mz_ref = calibration_line(calib) if calibrate is True else (0.0, 0.0, 0.0)
+    if calibrate is not True and calibrate is not False:
         offset = float(calibrate)
-    offsets = [c["offset"] for c in calib]
-    spread = (float(np.median(np.abs(np.subtract(offsets, offset)))) if len(offsets) > 1
-              else float("nan"))
-    cmz = pmz - offset
+
+    def corrected(m):
+        return m - offset - slope * 1e-6 * (m - mz_ref)
+
+    resid = [c["offset"] - (offset + slope * 1e-6 * (c["mz"] - mz_ref)) for c in calib]
+    spread = float(np.median(np.abs(resid))) if len(resid) > 1 else float("nan")
+    cmz = corrected(pmz)
+    envelopes = [ObservedEnvelope(sign * z, cmz[m], parea[m], pfloor[m]) for z, m in chains]
     left: list = []
     if route == "peaks":
         found, envelopes, left = stick_species(
@@ -371,7 +375,7 @@ def observe_mass(
             snr=snr, noise=noise)
     if profile:
         found, unexplained = account_regions(
-            x - offset, peaks.y, regions, found, sign=sign, fwhm_coef=coef, threshold=thr,
+            corrected(x), peaks.y, regions, found, sign=sign, fwhm_coef=coef, threshold=thr,
             ppm=ppm, floor=floor, c13=c13 if c13 == "fit" else c13_fixed, metals=metals,
             noise=noise, c13_hint=_ladder_c13(calib) if c13 == "fit" else None)
     else:
@@ -437,6 +441,8 @@ def observe_mass(
         "c13": c13 if c13 == "fit" else c13_fixed,
         "n_peaks": int(pmz.size),
         "calibration_offset": offset,
+        "calibration_slope_ppm": slope,
+        "calibration_mz": mz_ref,
         "calibration_spread": spread,
         "calibrants": tuple(calib),
         "calibration": ("estimated from the C_n ladder" if calibrate is True and calib

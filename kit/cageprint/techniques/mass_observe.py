@@ -48,6 +48,10 @@ from .mass_profile import (
 CALIBRANT_MIN_SCORE = 0.97
 #: largest calibration offset searched for, in m/z units
 MAX_CALIBRATION_OFFSET = 0.5
+#: calibrants spanning at least this many m/z units also give a slope, if within
+#: MAX_SLOPE_PPM
+SLOPE_MIN_SPAN = 100.0
+MAX_SLOPE_PPM = 300.0
 #: peaks at least this fraction of the tallest set the resolving-power estimate
 WIDTH_PEAKS_FRACTION = 0.05
 
@@ -158,15 +162,43 @@ def _ladder_residual(z, mz, inten, c13=C13_NATURAL):
 
 
 def stick_calibration(chains, pmz, parea, sign, c13):
-    """Offset (median over the C_n ladder members), its spread and the calibrants."""
+    """The C_n ladder members among the centroided envelopes, as calibrants."""
     calib = []
     for z, members in chains:
         r = _ladder_residual(sign * z, pmz[members], parea[members], c13)
         if r and r[0] >= CALIBRANT_MIN_SCORE and abs(r[1]) <= MAX_CALIBRATION_OFFSET:
-            calib.append({"formula": f"C{r[2]}", "charge": sign * z,
-                          "offset": r[1], "score": r[0]})
-    offset = float(np.median([c["offset"] for c in calib])) if calib else 0.0
-    return offset, calib
+            calib.append({"formula": f"C{r[2]}", "charge": sign * z, "offset": r[1],
+                          "score": r[0], "mz": float(np.average(pmz[members],
+                                                                weights=parea[members]))})
+    return calib
+
+
+def calibration_line(calib) -> tuple[float, float, float]:
+    """Offset, slope (ppm) and reference m/z of the calibration from the C_n calibrants.
+
+    ``offset`` is the median calibrant offset, at ``mz_ref``, the median
+    calibrant m/z.  With calibrants spanning at least :data:`SLOPE_MIN_SPAN`
+    m/z, the slope is the median of the pairwise slopes (Theil-Sen; one bad
+    calibrant does not tilt it), kept when within :data:`MAX_SLOPE_PPM`: it
+    takes up a scale error of the m/z axis and, at low resolving power, the
+    shift of a tailing line's centroid, which grows with the line width (m/R).
+    The correction at m/z ``m`` is ``offset + slope * 1e-6 * (m - mz_ref)``.
+    """
+    if not calib:
+        return 0.0, 0.0, 0.0
+    off = np.array([c["offset"] for c in calib])
+    mz = np.array([c.get("mz", 0.0) for c in calib])
+    offset, mz_ref = float(np.median(off)), float(np.median(mz))
+    slope = 0.0
+    if len(calib) > 1 and np.ptp(mz) >= SLOPE_MIN_SPAN:
+        i, j = np.triu_indices(len(calib), k=1)
+        keep = np.abs(mz[j] - mz[i]) >= SLOPE_MIN_SPAN / 2
+        if keep.any():
+            s = float(np.median((off[j] - off[i])[keep] / (mz[j] - mz[i])[keep])) * 1e6
+            slope = s if abs(s) <= MAX_SLOPE_PPM else 0.0
+    if slope:
+        offset = float(np.median(off - slope * 1e-6 * (mz - mz_ref)))
+    return offset, slope, mz_ref
 
 
 def stick_species(chains, cmz, parea, pfloor, sign, *, ppm, floor, c13, metals, snr, noise):

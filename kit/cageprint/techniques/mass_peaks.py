@@ -49,7 +49,17 @@ def _noise_and_baseline(y: np.ndarray, block: int = 512, span: float = np.inf
         med[i] = np.median(seg)
         mad[i] = np.median(np.abs(seg - med[i]))
         centres[i] = 0.5 * (edges[i] + edges[i + 1] - 1)
-    baseline = np.interp(np.arange(n), centres, med) if nb > 1 else np.full(n, med[0])
+    if nb > 2:
+        # beyond the outer block centres, continue the slope of the two outer blocks (a
+        # baseline that still falls at the spectrum's start); never below the lower of them
+        idx = np.arange(n)
+        baseline = np.interp(idx, centres, med)
+        for a, b, part in ((0, 1, idx < centres[0]), (-1, -2, idx > centres[-1])):
+            slope = (med[b] - med[a]) / (centres[b] - centres[a])
+            line = med[a] + slope * (idx[part] - centres[a])
+            baseline[part] = np.maximum(line, min(med[a], med[b]))
+    else:
+        baseline = np.interp(np.arange(n), centres, med) if nb > 1 else np.full(n, med[0])
     noise = 1.4826 * float(np.median(mad))
     return noise, baseline
 

@@ -41,6 +41,8 @@ REGION_PAD = 1.0
 PROFILE_MIN_SCORE = 0.95
 #: ... or leave a residual whose root-mean-square is at most this many noise deviations
 NOISE_FIT_FACTOR = 1.5
+#: each species' own envelope must match what the others leave with at least this cosine
+OWN_MIN_SCORE = 0.85
 #: a C_n profile must fit this well to calibrate the offset and the resolving power
 PROFILE_CALIBRANT_MIN = 0.97
 #: mass tolerance of a profile match, as a fraction of the FWHM (at least ppm and floor)
@@ -298,7 +300,7 @@ def _best_cn(xs, ys, ns, zs, p, *, max_offset, r_grid):
     return cos, shift, r, n
 
 
-def calibrate(x, y, regions, sign, fwhm_coef0, *, max_offset, fit_offset=True, c13=C13_NATURAL,
+def calibrate(x, y, regions, sign, fwhm_coef0, *, max_offset, c13=C13_NATURAL,
               n_regions=4):
     """Resolving power (and m/z offset) from the C_n envelopes among the tallest regions.
 
@@ -328,13 +330,14 @@ def calibrate(x, y, regions, sign, fwhm_coef0, *, max_offset, fit_offset=True, c
             if best is not None and best[0] >= PROFILE_CALIBRANT_MIN:
                 cos, shift, r, n = best
                 found.append({"formula": f"C{n}", "charge": sign * z, "offset": shift,
-                              "score": cos, "resolving_power": r, "c13": p})
+                              "score": cos, "resolving_power": r, "c13": p,
+                              "mz": float(x[reg.apex])})
         if found:  # the charge whose C_n fits best
             out.append(max(found, key=lambda c: c["score"]))
     if not out:
         return fwhm_coef0, 0.0, ()
     coef = 1.0 / float(np.median([c["resolving_power"] for c in out]))
-    offset = float(np.median([c["offset"] for c in out])) if fit_offset else 0.0
+    offset = float(np.median([c["offset"] for c in out]))
     return coef, offset, tuple(out)
 
 
@@ -428,8 +431,10 @@ def identify_region(x, y, region, sign, fwhm_coef, threshold, *, ppm, floor, c13
     squares; the set is kept when the joint model's cosine reaches
     :data:`PROFILE_MIN_SCORE` or its residual is no larger than the noise
     (root-mean-square at most :data:`NOISE_FIT_FACTOR` times ``noise``: a weak
-    envelope cannot fit better than its noise allows).  Returns (matches, joint
-    model on the region).
+    envelope cannot fit better than its noise allows).  A species is kept when
+    its drawn apex reaches ``threshold`` and its own envelope matches what the
+    others leave with a cosine of :data:`OWN_MIN_SCORE`.  Returns (matches,
+    joint model of the kept species on the region).
     """
     # lazy: scipy submodules take 0.1-0.3 s each to import; only this step needs it
     from scipy.optimize import nnls
@@ -470,12 +475,13 @@ def identify_region(x, y, region, sign, fwhm_coef, threshold, *, ppm, floor, c13
         return [], np.zeros_like(full_xs)
     out = []
     for j, (m, model) in enumerate(chosen):
-        if amounts[j] <= 0:
+        if amounts[j] < threshold:  # its own apex (columns peak at 1) must clear the threshold
             continue
         scale = amounts[j] / max(float(model.max()), 1e-300)
         others = joint - cols[:, j] * amounts[j]
         own = _cos(cols[:, j], np.maximum(ys - others, 0.0))
-        out.append(_rescaled(m, scale, own))
+        if own >= OWN_MIN_SCORE:
+            out.append(_rescaled(m, scale, own))
     return out, sum((model_of(m, full_xs, fwhm_coef) for m in out), np.zeros_like(full_xs))
 
 
