@@ -21,7 +21,6 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 import mass_corpus as mc  # noqa: E402  (the independent generator beside the tests)
-
 from cageprint.techniques.mass import PEAK_SNR, observe_mass  # noqa: E402
 
 #: seeds of the benchmark corpus (the test slice uses others)
@@ -31,7 +30,7 @@ POLARITIES = ("positive", "negative")
 
 
 def load() -> str:
-    return "load %.1f %.1f %.1f" % os.getloadavg()
+    return "load {:.1f} {:.1f} {:.1f}".format(*os.getloadavg())
 
 
 def ladders(n_seeds: int) -> None:

@@ -40,9 +40,9 @@ from .mass_observe import (
     MAX_CALIBRATION_OFFSET,
     Unexplained,
     account_regions,
+    calibration_line,
     chain_unexplained,
     fwhm_coefficient,
-    calibration_line,
     stick_calibration,
     stick_species,
 )

@@ -289,13 +289,13 @@ def account_regions(cx, y, regions: list[Region], found, *, sign, fwhm_coef, thr
                 cols.append(draw(xs, mz * (1 + m.error_ppm * 1e-6), ab, fwhm_coef))
             a = np.column_stack(cols)
             amounts, _ = nnls(a, ys)
-            resid = ys - a @ amounts
+            model = a @ amounts
         elif search:
             matches, joint = identify_region(cx, y, reg, sign, fwhm_coef, threshold, ppm=ppm,
                                              floor=floor, c13=c13, metals=metals, noise=noise,
                                              c13_hint=c13_hint)
             found.extend(_as_found(m) for m in matches)
-            resid = ys - joint
+            model = joint
             if not matches:
                 out.append(_region_record(cx, reg, top, "no formula's envelope fits this "
                                           "region's profile"))
@@ -303,10 +303,10 @@ def account_regions(cx, y, regions: list[Region], found, *, sign, fwhm_coef, thr
         else:
             out.append(_region_record(cx, reg, top, "no species explains this region"))
             continue
-        runs = residual_runs(cx, resid, reg, threshold)
-        for i, h in _merge_runs(cx, runs):
+        runs = residual_runs(xs, ys - model, model, threshold, fwhm_coef)
+        for i, h in _merge_runs(xs, runs):
             out.append(Unexplained(
-                mz=round(float(cx[i]), 5), relative_height=h / top, height=h,
+                mz=round(float(xs[i]), 5), relative_height=h / top, height=h,
                 mz_lo=float(xs[0]), mz_hi=float(xs[-1]),
                 reason="signal left over after the species of this region are subtracted"))
     return found, out

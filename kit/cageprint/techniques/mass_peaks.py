@@ -78,8 +78,10 @@ def _smooth(y, find_peaks, peak_widths, gaussian_filter1d):
     fwhm_points = float(np.median(peak_widths(y, top, rel_height=0.5)[0]))
     if fwhm_points < 4:
         return y, 1.0
+    # mirrored ends: repeating the last point would carry its noise, undamped, into the
+    # smoothed edge and raise a false peak there
     smoothed = gaussian_filter1d(y, SMOOTH_FRACTION * fwhm_points / 2.3548200450309493,
-                                 mode="nearest")
+                                 mode="mirror")
     # a Gaussian peak convolved with a Gaussian keeps its area; its apex drops by this factor
     return smoothed, 1.0 / np.sqrt(1.0 + SMOOTH_FRACTION**2)
 

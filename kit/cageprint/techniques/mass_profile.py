@@ -55,11 +55,12 @@ PROFILE_SHIFT_LIMIT = 2.0
 PROFILE_SHIFT_PENALTY = 0.02
 #: a fitted shift at this fraction of the limit or beyond is pinned there: no match
 PINNED = 0.98
-#: a second (third) species in a region must reach this fraction of the region's apex
+#: a second (third) species in a region must reach this fraction of the model nearby
 PROFILE_RESIDUAL_FRACTION = 0.10
-#: residual signal above this fraction of a region's apex (and above the peak threshold)
-#: is listed as unexplained
+#: residual signal above this fraction of the model nearby (and above the peak threshold)
+#: is listed as unexplained; nearby: within LOCAL_FWHM line widths
 UNEXPLAINED_FRACTION = 0.25
+LOCAL_FWHM = 3.0
 #: an envelope's main lines (at least this fraction of its largest) must lie in the region
 MAIN_LINE_FRACTION = 0.25
 #: a charge z > 1 is considered only where 1/z spans at least this many FWHM
@@ -427,8 +428,8 @@ def identify_region(x, y, region, sign, fwhm_coef, threshold, *, ppm, floor, c13
     The best single candidate (profile score; near ties go to the simpler kind
     and the lower charge) is taken, subtracted, and the residual searched again
     while it keeps a peak above ``threshold`` and :data:`PROFILE_RESIDUAL_FRACTION`
-    of the region's apex.  Amounts are refined together by non-negative least
-    squares; the set is kept when the joint model's cosine reaches
+    of the model nearby (:func:`local_level`).  Amounts are refined together by
+    non-negative least squares; the set is kept when the joint model's cosine reaches
     :data:`PROFILE_MIN_SCORE` or its residual is no larger than the noise
     (root-mean-square at most :data:`NOISE_FIT_FACTOR` times ``noise``: a weak
     envelope cannot fit better than its noise allows).  A species is kept when
@@ -446,6 +447,7 @@ def identify_region(x, y, region, sign, fwhm_coef, threshold, *, ppm, floor, c13
     resid = ys.copy()
     p_quick = (c13_hint if c13_hint is not None else C13_NATURAL) if c13 == "fit" else (
         C13_NATURAL if c13 is None else float(c13))
+    level = np.full(xs.size, float(threshold))
     for _ in range(max_species):
         results = []
         for text, kind, zs in _prefilter(xs, resid, cands, fwhm_coef, p_quick):
@@ -456,14 +458,16 @@ def identify_region(x, y, region, sign, fwhm_coef, threshold, *, ppm, floor, c13
         if not results:
             break
         (match, model), alts = _prefer(results, c13_hint)
-        if chosen and (model.max() < max(threshold, PROFILE_RESIDUAL_FRACTION * region.height)
-                       or match.cosine < PROFILE_MIN_SCORE - 0.1):
-            break
+        if chosen:
+            k = int(np.argmax(model))
+            if model[k] < level[k] or match.cosine < PROFILE_MIN_SCORE - 0.1:
+                break
         chosen.append((_with_alts(match, alts), model))
         cols = np.column_stack([m / max(float(m.max()), 1e-300) for _, m in chosen])
         amounts, _ = nnls(cols, ys)
         resid = ys - cols @ amounts
-        if resid.max() < max(threshold, PROFILE_RESIDUAL_FRACTION * region.height):
+        level = local_level(xs, cols @ amounts, threshold, PROFILE_RESIDUAL_FRACTION, fwhm_coef)
+        if not np.any(resid > level):
             break
     if not chosen:
         return [], np.zeros_like(full_xs)
@@ -522,16 +526,31 @@ def _rescaled(m: ProfileMatch, scale: float, own_cos: float) -> ProfileMatch:
 # ------------------------------------------------------------------ what is left
 
 
-def residual_runs(x, resid, region, threshold):
-    """Parts of a region whose residual stays above the listing level: (apex index, height)."""
-    level = max(threshold, UNEXPLAINED_FRACTION * region.height)
+def local_level(x, model, threshold, fraction, fwhm_coef):
+    """``max(threshold, fraction * model nearby)``, nearby = within LOCAL_FWHM line widths.
+
+    Where a drawn envelope does not quite have the measured line shape (tails,
+    asymmetry) the residual scales with the model around it; a weak envelope
+    away from the strong ones is judged against the threshold alone, however
+    tall the strongest envelope of its region.
+    """
+    if x.size < 2:
+        return np.full(x.size, float(threshold))
+    half = int(np.ceil(LOCAL_FWHM * fwhm_coef * float(x.mean()) / float(np.median(np.diff(x)))))
+    padded = np.pad(model, half, mode="edge")
+    near = np.lib.stride_tricks.sliding_window_view(padded, 2 * half + 1).max(axis=1)
+    return np.maximum(threshold, fraction * near)
+
+
+def residual_runs(x, resid, model, threshold, fwhm_coef):
+    """Runs of the residual above :func:`local_level` (UNEXPLAINED_FRACTION): (index, height)."""
     r = resid
-    above = r > level
+    above = r > local_level(x, model, threshold, UNEXPLAINED_FRACTION, fwhm_coef)
     if not above.any():
         return []
     edges = np.flatnonzero(np.diff(np.concatenate(([0], above.astype(np.int8), [0]))))
     out = []
     for a, b in zip(edges[::2], edges[1::2], strict=True):
         i = a + int(np.argmax(r[a:b]))
-        out.append((region.lo + i, float(r[i])))
+        out.append((i, float(r[i])))
     return out
