@@ -72,11 +72,11 @@ def run(args) -> int:
         for line in unexplained:
             print(line, file=sys.stderr)
         return 0
-    shown = [tuple(v or "-" for v in r) for r in rows]
-    widths = [max([len(c), *(len(r[i]) for r in shown)]) for i, c in enumerate(COLUMNS)]
+    shown = [[v or "-" for v in row] for row in rows]
+    widths = [max([len(c), *(len(row[i]) for row in shown)]) for i, c in enumerate(COLUMNS)]
     print("  ".join(c.ljust(w) for c, w in zip(COLUMNS, widths, strict=True)).rstrip())
-    for r in shown:
-        print("  ".join(v.ljust(w) for v, w in zip(r, widths, strict=True)).rstrip())
+    for row in shown:
+        print("  ".join(v.ljust(w) for v, w in zip(row, widths, strict=True)).rstrip())
     d = obs.diagnostics
     route = ("isotope peaks resolved" if d["route"] == "peaks" else
              f"isotope peaks blended (resolving power ~{d['resolving_power']:.0f}): envelopes "

@@ -3,6 +3,11 @@
 ``observe_mass`` runs peaks -> isotope envelopes -> charge (from the 1/z
 spacing) -> calibration offset (from the C_n ladder) -> candidate formulas
 within a ppm tolerance -> envelope-shape scores -> fragments and ambiguities.
+Where the isotope peaks blend (resolving power below ``PROFILE_BELOW_R``,
+about 4000) the envelopes are compared as drawn profiles instead
+(:mod:`~cageprint.techniques.mass_profile`).  Either way every region of
+signal above the noise is accounted for: explained by a species, or listed in
+``MassObservation.unexplained`` with its m/z and relative height.
 ``compare_mass`` scores given formulas (or cages) against an observation.
 ``predict_mass`` gives the expected ion envelope of a formula or cage.
 
@@ -263,10 +268,13 @@ def observe_mass(
         Peak threshold in noise standard deviations (:data:`PEAK_SNR`).
     ppm, floor : float
         Mass tolerance: ``max(ppm * 1e-6 * m/z, floor, FWHM / (S/N))`` (:data:`MASS_TOL_PPM`,
-        :data:`MASS_TOL_FLOOR`, floor in m/z units).
+        :data:`MASS_TOL_FLOOR`, floor in m/z units); for blended envelopes at
+        least a tenth of the line width
+        (:data:`~cageprint.techniques.mass_profile.PROFILE_TOL_FWHM`).
     c13 : None, float or "fit"
         13C fraction of the theoretical envelopes: natural (None), fixed, or
-        fitted per species.
+        fitted per species (then reported as ``c13_fraction`` with its
+        uncertainty ``c13_fraction_err``).
     calibrate : bool or float
         True: estimate the m/z offset from the C_n ladder and correct it (an
         offset, plus a slope in ppm where the calibrants span 100 m/z or more;
@@ -282,14 +290,23 @@ def observe_mass(
     Returns
     -------
     MassObservation
+        ``diagnostics["route"]`` says how the envelopes were compared
+        ("peaks": centroided isotope peaks; "profile": drawn envelopes, for
+        blended peaks) and ``diagnostics["resolving_power"]`` the R estimated
+        from the data.
 
     Examples
     --------
     >>> from cageprint.techniques.mass_synthetic import synthetic_mass_spectrum
     >>> s = synthetic_mass_spectrum([("C60", 1, 1.0), ("C70", 1, 0.4)], seed=1)
     >>> obs = observe_mass(s)
-    >>> [(sp.formula, sp.charge) for sp in obs.species]
-    [('C60', 1), ('C70', 1)]
+    >>> [(sp.formula, sp.charge) for sp in obs.species], obs.unexplained
+    ([('C60', 1), ('C70', 1)], ())
+    >>> low = synthetic_mass_spectrum([("C60", -1, 1.0), ("C84", -1, 0.2)], seed=1,
+    ...                               resolving_power=1500, polarity="negative")
+    >>> obs = observe_mass(low)
+    >>> [(sp.formula, sp.charge) for sp in obs.species], obs.diagnostics["route"]
+    ([('C60', -1), ('C84', -1)], 'profile')
     """
     if not isinstance(spectrum, Spectrum):
         raise SpectrumError(f"spectrum must be a Spectrum, got {type(spectrum).__name__}")
