@@ -19,6 +19,8 @@ __all__ = [
     "SessionError",
     "SettingsError",
     "NotebookRunError",
+    "StabilityError",
+    "LibraryError",
 ]
 
 
@@ -81,3 +83,11 @@ class SettingsError(CageprintError):
 
 class NotebookRunError(CageprintError):
     """A notebook could not be prepared, or a cell failed while it ran headless."""
+
+
+class StabilityError(CageprintError):
+    """A stability index or computed energy could not be made (e.g. no SCF convergence)."""
+
+
+class LibraryError(CageprintError):
+    """The cage library file could not be opened, built or queried as asked."""
