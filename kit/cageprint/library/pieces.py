@@ -15,8 +15,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..cage import Cage, check_n
-from ..cage import isomers as _iso
 from ..cage import _kernels as _K
+from ..cage import isomers as _iso
 
 __all__ = ["PIECE_PARTS", "Piece", "plan_pieces", "piece_spirals", "cage_of"]
 

@@ -212,7 +212,8 @@ def finish_range(con, n: int, scope: str, pieces_total: int) -> int:
                         "row_number() OVER (ORDER BY spiral_key) AS k FROM cages WHERE n = ?) r "
                         "WHERE cages.n = ? AND cages.spiral_key = r.spiral_key", [n, n])
         con.execute("UPDATE cages SET isomer_ipr = r.k FROM (SELECT spiral_key, "
-                    "row_number() OVER (ORDER BY spiral_key) AS k FROM cages WHERE n = ? AND ipr) r "
+                    "row_number() OVER (ORDER BY spiral_key) AS k FROM cages "
+                    "WHERE n = ? AND ipr) r "
                     "WHERE cages.n = ? AND cages.spiral_key = r.spiral_key", [n, n])
         where = "n = ?" if scope == "all" else "n = ? AND ipr"
         total = con.execute(f"SELECT count(*) FROM cages WHERE {where}", [n]).fetchone()[0]
