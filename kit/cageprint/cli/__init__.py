@@ -19,7 +19,7 @@ from types import ModuleType
 
 from .. import __version__
 from ..errors import CageprintError
-from . import assign, demo, envelope, isomers, mass, notebooks
+from . import assign, demo, envelope, isomers, library, mass, notebooks
 
 #: sub-command name -> its module in this package
 COMMANDS: dict[str, ModuleType] = {
@@ -29,6 +29,7 @@ COMMANDS: dict[str, ModuleType] = {
     "assign": assign,
     "demo": demo,
     "run-notebooks": notebooks,
+    "library": library,
 }
 
 

@@ -128,7 +128,8 @@ class _WarmUp:
 def dask_client(scheduler: str | None = None, workers: int | None = None):
     """A Dask client on ``scheduler`` or on a new local cluster of ``workers`` processes.
 
-    The local cluster has one thread per worker and no dashboard; every worker
+    The local cluster has one thread per worker (its dashboard, if bokeh is installed, on
+    a free port); every worker
     compiles the kernels in a setup step.
     """
     try:  # lazy: dask.distributed is an optional extra ([library]) and slow to import
@@ -147,7 +148,7 @@ def dask_client(scheduler: str | None = None, workers: int | None = None):
     else:
         n = int(workers or os.cpu_count() or 1)
         cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
-                               dashboard_address=None, silence_logs=logging.ERROR)
+                               dashboard_address=":0", silence_logs=logging.ERROR)
         client = Client(cluster)
     try:
         plugin = type("CageprintWarmUp", (_WarmUp, WorkerPlugin), {})()
