@@ -194,3 +194,24 @@ def test_cli_build_query_info(tmp_path, capsys):
     assert "2 cages" in capsys.readouterr().out
     assert main(["library", "query", "--path", str(tmp_path / "none.duckdb")]) == 2
     assert "no such file" in capsys.readouterr().err
+
+
+def test_core_imports_without_optional_packages():
+    # the library, stability and CLI modules import without duckdb, dask or tblite (lazy
+    # imports; common practice, no source)
+    code = (
+        "import sys\n"
+        "class B:\n"
+        "    def find_spec(self, name, path=None, target=None):\n"
+        "        if name.split('.')[0] in ('duckdb', 'dask', 'distributed', 'tblite'):\n"
+        "            raise ImportError('blocked ' + name)\n"
+        "sys.meta_path.insert(0, B())\n"
+        "import cageprint.library, cageprint.library.screen, cageprint.stability.energy\n"
+        "import cageprint.cli.library\n"
+        "from cageprint.library import parse_range\n"
+        "print(parse_range('C60-C64'))\n"
+    )
+    env = dict(os.environ, PYTHONPATH=str(REPO / "kit"))
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip() == "[60, 62, 64]"

@@ -30,10 +30,9 @@ from types import MappingProxyType
 import numpy as np
 
 from ..errors import CageError
-from ..formula import parse_formula
+from ..formula import CLUSTER_CHARGES, parse_formula
 from ..symmetry import cage_symmetry
 from ..symmetry.huckel import fill_levels, frontier, levels_from_eigenvalues
-from ..techniques.mass import CLUSTER_CHARGES
 
 __all__ = [
     "INDEX_INFO",
@@ -50,7 +49,7 @@ __all__ = [
 #: about 3.55 Å from its diffraction bond lengths; from memory); C_n scales as sqrt(n/60)
 C60_RADIUS = 3.55
 
-#: divalent donors missing from the mass module's table (Yb and Eu give two electrons
+#: divalent donors missing from the formula module's table (Yb and Eu give two electrons
 #: in mono-metallofullerenes such as Yb@C84; from memory); used only here
 EXTRA_CHARGES = MappingProxyType({"Yb": 2, "Eu": 2})
 
