@@ -14,7 +14,7 @@ the kit lists techniques.
 Examples
 --------
 >>> [t.label for t in techniques()]
-['Mass spectrum', '13C NMR', 'IR', 'Raman', 'UV-vis']
+['Mass spectrum', '13C NMR', 'IR', 'Raman', 'UV-vis', 'Cage stability']
 >>> get("nmr").short, get("nmr").cli_flag, get("uvvis").x_unit
 ('NMR', '--nmr', 'nm')
 """
@@ -30,6 +30,14 @@ from ..candidate import Candidate
 from ..errors import EvidenceError
 from ..settings import Settings
 from ..spectra.model import register_technique, unregister_technique
+from ..stability.channel import (
+    CHANNEL_WEIGHT,
+    StabilitySettings,
+    accept_stability,
+    observe_stability,
+    stability_all,
+    stability_signature,
+)
 from ..symmetry import Fingerprint
 from ..verdict import TechniqueVerdict
 from .electronic import compare_uvvis, observe_uvvis
@@ -335,5 +343,11 @@ for _t in (
               predicted=lambda c: None if c.gap_beta is None else round(c.gap_beta, 3),
               tie_note=lambda c: "same Hückel gap", marks=lambda obs: obs.bands_nm,
               observed_noun="bands", weight=0.3, cli_flag="--uv"),
+    # no spectrum: a prior over the candidate set, on when given "indices", "xtb" or energies
+    Technique("stability", "Cage stability", "Stability", "", StabilitySettings,
+              observe_stability, signature=stability_signature, compare_all=stability_all,
+              tie_note=lambda c: "same cage stability", observed_noun="criteria",
+              weight=CHANNEL_WEIGHT, cli_flag="--stability", needs_spectrum=False,
+              accept=accept_stability),
 ):
     register(_t)
