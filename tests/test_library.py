@@ -215,3 +215,19 @@ def test_core_imports_without_optional_packages():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, env=env)
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip() == "[60, 62, 64]"
+
+
+def test_library_candidates(tmp_path):
+    # candidates read from the library carry the gap at the formula's cage charge
+    from cageprint.candidate import Candidate
+    from cageprint.library import library_candidates
+
+    path = tmp_path / "lc.duckdb"
+    cands = library_candidates("Sc3N@C80", path=path, progress=False)
+    ref = [Candidate.from_cage(c, charge=-6, formula="Sc3N@C80")
+           for c in iter_isomers(80, ipr=True)]
+    assert [c.isomer for c in cands] == list(range(1, 8))
+    for a, b in zip(cands, ref, strict=True):
+        assert (a.nmr_sizes, a.ir_count, a.raman_count, a.point_group, a.spiral) == (
+            b.nmr_sizes, b.ir_count, b.raman_count, b.point_group, b.spiral)
+        assert a.gap_beta == pytest.approx(b.gap_beta, abs=1e-6) and a.cage_charge == -6

@@ -44,11 +44,11 @@ def session(toy):
 
 
 def test_the_built_in_techniques_are_spelled_one_way():
-    assert registry.keys() == ("mass", "nmr", "ir", "raman", "uvvis")
+    assert registry.keys() == ("mass", "nmr", "ir", "raman", "uvvis", "stability")
     assert [t.label for t in registry.techniques()] == ["Mass spectrum", "13C NMR", "IR",
-                                                        "Raman", "UV-vis"]
+                                                        "Raman", "UV-vis", "Cage stability"]
     assert [t.cli_flag for t in registry.techniques()] == ["--ms", "--nmr", "--ir", "--raman",
-                                                           "--uv"]
+                                                           "--uv", "--stability"]
     with pytest.raises(EvidenceError, match="technique 'xrd' is not one of mass, nmr"):
         registry.get("xrd")
 

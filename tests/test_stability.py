@@ -152,3 +152,23 @@ def test_score_floor_and_verdict_words():
 def test_mixed_sizes_refused():
     with pytest.raises(StabilityError, match="one formula"):
         stability_verdicts(_ipr(76) + _ipr(78))
+
+
+def test_sc3n_placed_over_the_three_fused_pairs_of_c68_6140():
+    # in Sc3N@C68 (D3, isomer 6140) each Sc sits over one of the three fused pentagon pairs
+    # (Stevenson et al., Nature 2000; from memory): the placement must aim the metals there
+    import numpy as np
+
+    from cageprint.stability.endohedral import place_cluster, sites
+
+    cage = Cage.from_spiral(68, (1, 2, 9, 11, 14, 16, 22, 27, 29, 31, 33, 35))
+    numbers, x = place_cluster(cage, "Sc3N@C68")
+    assert numbers[-4:] == [7, 21, 21, 21] and len(numbers) == 72
+    fused, _ = sites(cage, x[:68])
+    assert len(fused) == 3
+    metal = x[-3:] - x[-4]
+    metal /= np.linalg.norm(metal, axis=1, keepdims=True)
+    cos = metal @ fused.T
+    assert np.all(cos.max(axis=1) > 0.95)  # within about 18 degrees of a fused bond
+    with pytest.raises(StabilityError, match="places M3N or a single metal"):
+        place_cluster(cage, "Sc2C2@C68")

@@ -70,3 +70,30 @@ def test_la_c82_c2v_first_by_gfn2_trianion():
     assert rows[0].rank == 1 and rows[1].rank == 2
     assert (rows[0].candidate.isomer, rows[0].candidate.point_group) == (9, "C2v")
     assert any("lowest of 9 by GFN2-xTB (trianion)" in r for r in rows[0].reasons)
+
+
+def test_xyz_with_cluster_elements():
+    from cageprint.stability.energy import EnergyResult
+
+    r = EnergyResult(2, (), 1, "GFN2-xTB + Sc3N", 0, 0, -1.0, True, 0.0, 1, 1, 0.0, 0.0,
+                     ((0.0, 0.0, 0.0), (1.4, 0.0, 0.0), (0.0, 2.0, 0.0)),
+                     model="cage + Sc3N", elements=("C", "C", "Sc"))
+    lines = r.xyz().splitlines()
+    assert lines[0] == "3" and "cage + Sc3N" in lines[1] and lines[3].startswith("C ")
+    assert lines[4].startswith("Sc ")
+    assert EnergyResult.from_dict(r.to_dict()) == r
+
+
+@pytest.mark.slow
+def test_small_cascade_stores_and_resumes(tmp_path):
+    # the cascade's plumbing on a small case: C40 (40 isomers), the 2 best by the index
+    # estimate relaxed (bare neutral cages); a rerun computes no energy again
+    # (common practice, no source)
+    from cageprint.library.screen import cascade
+
+    path = tmp_path / "c40.duckdb"
+    r = cascade("C40", shortlist=2, path=path, workers=0, progress=False)
+    assert r.candidates == 40 and len(r.rows) == 2 and r.rows[0].energy_kjmol == 0.0
+    assert all(row.converged for row in r.rows) and r.method == "GFN2-xTB"
+    again = cascade("C40", shortlist=2, path=path, workers=0, progress=False)
+    assert again.energy_cpu_seconds == 0.0 and again.rows == r.rows

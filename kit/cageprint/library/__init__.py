@@ -19,6 +19,7 @@ from .build import BuildReport, RangeReport, build_library, dask_client, parse_r
 from .pieces import Piece, plan_pieces
 from .query import (
     library_cages,
+    library_candidates,
     library_energies,
     library_indices,
     library_info,
@@ -37,6 +38,7 @@ __all__ = [
     "default_path",
     "export_parquet",
     "library_cages",
+    "library_candidates",
     "library_energies",
     "library_indices",
     "library_info",

@@ -11,7 +11,9 @@ import re
 from collections import Counter
 from pathlib import Path
 
+from ..candidate import Candidate
 from ..errors import LibraryError
+from ..formula import parse_cage_formula
 from ..stability.indices import StabilityIndices
 from .build import build_library, parse_range
 from .store import CHARGES, _q, complete_ranges, default_path, open_library, spiral_key
@@ -24,6 +26,7 @@ __all__ = [
     "library_indices",
     "library_energies",
     "library_info",
+    "library_candidates",
 ]
 
 #: columns of a query result, in order
@@ -230,3 +233,44 @@ def library_info(path=None) -> dict:
         "partial": [{"n": a, "scope": b, "pieces_done": c, "pieces": t}
                     for a, b, c, t in partial if (a, b) not in done],
     }
+
+
+def _sizes(pattern: str) -> tuple[int, ...]:
+    out: list[int] = []
+    for count, size in _TERM.findall(pattern):
+        out += [int(size)] * int(count)
+    return tuple(out)
+
+
+def library_candidates(formula: str, ipr: bool = True, *, path=None, build: bool = True,
+                       progress: bool = True, workers: int | None = 0) -> tuple[Candidate, ...]:
+    """The candidates of a formula read from the library (built first when missing).
+
+    Each candidate carries its 13C orbit sizes, IR/Raman counts, point group,
+    spiral and the Hückel gap at the formula's cage charge (when it is one of
+    :data:`CHARGES`); UV-vis transition energies are not stored, so
+    ``transitions_beta`` is empty (the UV-vis comparison then uses the gap).
+    """
+    f = parse_cage_formula(formula)
+    q = int(f.cage_charge)
+    table = library_cages(f.cage_n, ipr, path=path, build=build, progress=progress,
+                          workers=workers)
+    gaps = None
+    if q != 0 and q in CHARGES:
+        con = _connect(path)
+        try:
+            rows = con.execute(f"SELECT spiral, gap_{_q(q)} FROM cages WHERE n = ?",
+                               [f.cage_n]).fetchall()
+        finally:
+            con.close()
+        gaps = dict(rows)
+    out = []
+    for r in table.itertuples(index=False):
+        gap = float(r.gap_beta) if q == 0 else (None if gaps is None else float(gaps[r.spiral]))
+        out.append(Candidate(
+            formula=f.text, n=int(r.n), isomer=int(r.isomer), point_group=str(r.point_group),
+            nmr_sizes=_sizes(r.nmr_pattern), ir_count=int(r.ir_active),
+            raman_count=int(r.raman_active), gap_beta=gap, cage_charge=q,
+            spiral=tuple(int(v) for v in r.spiral.split()),
+        ))
+    return tuple(out)

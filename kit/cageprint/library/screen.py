@@ -6,20 +6,32 @@ The cascade for an endohedral formula such as Sc3N@C68:
 2. the index estimate at the cluster's formal charge
    (:func:`cageprint.stability.prior.index_estimates`: fused pentagon pairs and
    the Hückel π energy of the cage anion) keeps the ``shortlist`` best cages;
-3. those are relaxed with GFN2-xTB as the bare cage anion, one Dask task per
-   cage, each result stored in the library as it arrives (a rerun skips them);
+3. those are relaxed with GFN2-xTB, one Dask task per cage, each result stored
+   in the library as it arrives (a rerun skips them): with the cluster inside
+   for an M3N formula (``model="cluster"``: the metals sit over fused pentagon
+   pairs, which the bare anion cannot show), else as the bare cage anion
+   (``model="anion"``);
 4. the relaxed energies rank the shortlist.
+
+Energies of the cluster model are stored under the method name
+``"GFN2-xTB + Sc3N"`` (charge 0), those of bare cages under ``"GFN2-xTB"``.
 """
 
 from __future__ import annotations
 
 import os
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from ..errors import LibraryError, StabilityError
 from ..formula import parse_formula
-from ..stability.energy import KJMOL_PER_HARTREE, MAX_STEPS, EnergyResult, relax_cage
+from ..stability.energy import (
+    KJMOL_PER_HARTREE,
+    MAX_STEPS,
+    EnergyResult,
+    relax_cage,
+    relax_endohedral,
+)
 from ..stability.indices import formal_charge
 from ..stability.prior import index_estimates
 from .build import _bar, build_library, dask_client
@@ -43,17 +55,29 @@ class EnergyTask:
     charge: int
     method: str = "GFN2-xTB"
     max_steps: int = MAX_STEPS
+    formula: str | None = None
+
+    @property
+    def label(self) -> str:
+        """Method name as stored: ``"GFN2-xTB"``, or ``"GFN2-xTB + Sc3N"`` with the cluster."""
+        return self.method if self.formula is None else \
+            f"{self.method} + {self.formula.split('@')[0]}"
 
 
 def _relax(task: EnergyTask):
     cage = cage_of(task.n, task.spiral)
     try:
-        return relax_cage(cage, charge=task.charge, method=task.method,
-                          max_steps=task.max_steps, strict=False)
+        if task.formula is not None:
+            res = relax_endohedral(cage, task.formula, method=task.method,
+                                   max_steps=task.max_steps, strict=False)
+        else:
+            res = relax_cage(cage, charge=task.charge, method=task.method,
+                             max_steps=task.max_steps, strict=False)
     except StabilityError as exc:  # SCF failure: kept as a record, not a crash of the screen
-        return EnergyResult(task.n, tuple(task.spiral), 0, task.method, task.charge,
-                            (task.n - task.charge) % 2, float("nan"), False, float("nan"),
-                            0, 0, 0.0, 0.0, (), message=str(exc))
+        res = EnergyResult(task.n, tuple(task.spiral), 0, task.method, task.charge,
+                           (task.n - task.charge) % 2, float("nan"), False, float("nan"),
+                           0, 0, 0.0, 0.0, (), message=str(exc))
+    return replace(res, method=task.label)
 
 
 def energy_screen(tasks, *, path=None, scheduler: str | None = None,
@@ -66,11 +90,11 @@ def energy_screen(tasks, *, path=None, scheduler: str | None = None,
     con = open_library(path)
     try:
         have = set()
-        for t in {(t.n, t.charge, t.method) for t in tasks}:
+        for t in {(t.n, t.charge, t.label) for t in tasks}:
             rows = con.execute("SELECT spiral_key FROM energies WHERE n = ? AND charge = ? AND "
                                "method = ? AND converged", list(t)).fetchall()
             have |= {(t[0], t[1], t[2], r[0]) for r in rows}
-        todo = [t for t in tasks if (t.n, t.charge, t.method, spiral_key(t.spiral)) not in have]
+        todo = [t for t in tasks if (t.n, t.charge, t.label, spiral_key(t.spiral)) not in have]
         out: list[EnergyResult] = []
         bar = _bar(len(todo), progress and bool(todo), "energies")
 
@@ -152,7 +176,8 @@ class CascadeResult:
 
 def cascade(formula: str, *, shortlist: int = SHORTLIST, ipr: bool = False, path=None,
             scheduler: str | None = None, workers: int | None = None, charge: int | None = None,
-            method: str = "GFN2-xTB", progress: bool = True) -> CascadeResult:
+            method: str = "GFN2-xTB", model: str | None = None,
+            progress: bool = True) -> CascadeResult:
     """Indices for every cage of the formula's size, then energies of the ``shortlist`` best.
 
     Parameters
@@ -163,6 +188,9 @@ def cascade(formula: str, *, shortlist: int = SHORTLIST, ipr: bool = False, path
         Cages relaxed.
     ipr : bool
         Screen IPR cages only (default: every isomer).
+    model : {"cluster", "anion"}, optional
+        Relax with the cluster inside, or the bare cage anion; default
+        ``"cluster"`` for an M3N formula, else ``"anion"``.
     """
     f = parse_formula(formula)
     n = f.cage_n
@@ -176,10 +204,18 @@ def cascade(formula: str, *, shortlist: int = SHORTLIST, ipr: bool = False, path
     keys = list(idx)
     est = dict(zip(keys, index_estimates([idx[k] for k in keys]), strict=True))
     short = sorted(keys, key=lambda k: (est[k], k))[: max(1, int(shortlist))]
-    tasks = [EnergyTask(n, tuple(int(v) for v in k.split()), q, method) for k in short]
+    inner = dict(f.inner)
+    if model is None:
+        model = "cluster" if inner.get("N") == 1 and sum(inner.values()) == 4 else "anion"
+    if model not in ("cluster", "anion"):
+        raise LibraryError(f"model: expected 'cluster' or 'anion'; got {model!r}")
+    with_cluster = formula if model == "cluster" and inner else None
+    tasks = [EnergyTask(n, tuple(int(v) for v in k.split()), 0 if with_cluster else q, method,
+                        formula=with_cluster) for k in short]
     done = energy_screen(tasks, path=path, scheduler=scheduler, workers=workers,
                          progress=progress)
-    energies = library_energies(n, q, method, path)
+    label = tasks[0].label
+    energies = library_energies(n, tasks[0].charge, label, path)
     table = query_cages(path, sizes=[n]).set_index("spiral")
     low = min((energies[k] for k in short if k in energies), default=None)
     rows = []
@@ -195,7 +231,7 @@ def cascade(formula: str, *, shortlist: int = SHORTLIST, ipr: bool = False, path
         ))
     rows.sort(key=lambda r: (r.energy_kjmol is None, r.energy_kjmol or 0.0, r.estimate_kjmol))
     return CascadeResult(
-        formula=formula, n=n, charge=q, method=method, candidates=len(idx), rows=tuple(rows),
+        formula=formula, n=n, charge=q, method=label, candidates=len(idx), rows=tuple(rows),
         build_cpu_seconds=rep.cpu_seconds,
         energy_cpu_seconds=sum(r.cpu_seconds for r in done),
         wall_seconds=time.perf_counter() - t0, load=os.getloadavg(),

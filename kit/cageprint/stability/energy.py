@@ -44,7 +44,9 @@ __all__ = [
     "MAX_STEPS",
     "METHODS",
     "EnergyResult",
+    "relax_atoms",
     "relax_cage",
+    "relax_endohedral",
     "single_point",
     "relative_energies",
 ]
@@ -88,6 +90,10 @@ class EnergyResult:
         Final geometry, Å.
     message : str
         What the optimiser said.
+    model : str
+        ``"bare cage"`` (the cage, or its anion) or ``"cage + Sc3N"`` (cluster inside).
+    elements : tuple of str
+        Element of every atom in ``coords`` when not all carbon (cluster atoms last).
     """
 
     n: int
@@ -106,6 +112,8 @@ class EnergyResult:
     coords: tuple[tuple[float, float, float], ...]
     grad_tol: float = GRAD_TOL
     message: str = ""
+    model: str = "bare cage"
+    elements: tuple[str, ...] = ()
 
     @property
     def energy_kjmol(self) -> float:
@@ -114,14 +122,21 @@ class EnergyResult:
     def xyz(self) -> str:
         """Plain XYZ text of the final geometry, the method and energy in the comment."""
         state = "relaxed" if self.converged else "NOT converged"
-        comment = (f"C{self.n} isomer {self.isomer} charge {self.charge:+d} {self.method} "
-                   f"E = {self.energy:.8f} Eh ({state}, max gradient {self.max_gradient:.1e})")
-        return to_xyz(self.n, np.asarray(self.coords), comment)
+        comment = (f"C{self.n} isomer {self.isomer} ({self.model}) charge {self.charge:+d} "
+                   f"{self.method} E = {self.energy:.8f} Eh ({state}, max gradient "
+                   f"{self.max_gradient:.1e})")
+        if not self.elements:
+            return to_xyz(self.n, np.asarray(self.coords), comment)
+        lines = [str(len(self.coords)), comment]
+        lines += [f"{e:<2} {a:12.6f}{b:12.6f}{c:12.6f}"
+                  for e, (a, b, c) in zip(self.elements, self.coords, strict=True)]
+        return "\n".join(lines) + "\n"
 
     def to_dict(self) -> dict:
         d = {k: getattr(self, k) for k in self.__dataclass_fields__}
         d["spiral"] = list(self.spiral)
         d["coords"] = [list(c) for c in self.coords]
+        d["elements"] = list(self.elements)
         return d
 
     @classmethod
@@ -129,10 +144,11 @@ class EnergyResult:
         d = dict(d)
         d["spiral"] = tuple(int(s) for s in d["spiral"])
         d["coords"] = tuple(tuple(float(v) for v in c) for c in d["coords"])
+        d["elements"] = tuple(d.get("elements", ()))
         return cls(**d)
 
 
-def _calculator(method: str, n: int, coords_bohr: np.ndarray, charge: int, uhf: int):
+def _calculator(method: str, numbers, coords_bohr: np.ndarray, charge: int, uhf: int):
     # lazy: tblite is an optional extra ([energy]) with a compiled library
     try:
         from tblite.interface import Calculator
@@ -143,7 +159,8 @@ def _calculator(method: str, n: int, coords_bohr: np.ndarray, charge: int, uhf: 
         ) from exc
     if method not in METHODS:
         raise StabilityError(f"method: expected one of {', '.join(METHODS)}; got {method!r}")
-    calc = Calculator(method, np.full(n, 6), coords_bohr, charge=float(charge), uhf=int(uhf))
+    calc = Calculator(method, np.asarray(numbers), coords_bohr, charge=float(charge),
+                      uhf=int(uhf))
     calc.set("verbosity", 0)
     return calc
 
@@ -166,12 +183,65 @@ def single_point(cage, coords, *, charge: int = 0, method: str = "GFN2-xTB"):
         If tblite is missing or the SCF does not converge.
     """
     x = np.asarray(coords, dtype=float) * BOHR_PER_ANGSTROM
-    calc = _calculator(method, int(cage.n), x, charge, _uhf(cage.n, charge))
+    calc = _calculator(method, np.full(int(cage.n), 6), x, charge, _uhf(cage.n, charge))
     try:
         res = calc.singlepoint()
     except Exception as exc:  # tblite raises its own runtime error class
         raise StabilityError(f"{_label(cage, charge, method)}: SCF failed: {exc}") from exc
     return float(res.get("energy")), np.asarray(res.get("gradient"))
+
+
+def relax_atoms(numbers, coords, *, charge: int = 0, uhf: int = 0, method: str = "GFN2-xTB",
+                grad_tol: float = GRAD_TOL, max_steps: int = MAX_STEPS, label: str = "atoms"):
+    """Relax any set of atoms (Å) with tblite energies and gradients (L-BFGS-B).
+
+    Returns ``(energy, max_gradient, coords_angstrom, steps, evaluations, message,
+    seconds, cpu_seconds)``; raises :class:`StabilityError` when an SCF fails.
+    """
+    numbers = np.asarray(numbers)
+    x0 = np.asarray(coords, dtype=float)
+    calc = _calculator(method, numbers, x0 * BOHR_PER_ANGSTROM, charge, uhf)
+    state = {"res": None, "evals": 0}
+    t0, c0 = time.perf_counter(), time.process_time()
+
+    def fun(flat):
+        calc.update(positions=flat.reshape(-1, 3))
+        try:
+            res = calc.singlepoint(state["res"]) if state["res"] is not None else calc.singlepoint()
+        except Exception as exc:
+            raise StabilityError(
+                f"{label}: SCF did not converge at step {state['evals']}: {exc}"
+            ) from exc
+        state["res"] = res
+        state["evals"] += 1
+        return float(res.get("energy")), np.asarray(res.get("gradient")).ravel()
+
+    opt = minimize(fun, x0.ravel() * BOHR_PER_ANGSTROM, jac=True, method="L-BFGS-B",
+                   options={"maxiter": int(max_steps), "gtol": float(grad_tol), "ftol": 1e-13,
+                            "maxcor": 30})
+    e, g = fun(opt.x)
+    return (e, float(np.abs(g).max()), opt.x.reshape(-1, 3) / BOHR_PER_ANGSTROM, int(opt.nit),
+            state["evals"], str(opt.message), time.perf_counter() - t0, time.process_time() - c0)
+
+
+def _result(cage, out, *, charge, uhf, method, grad_tol, model="bare cage", elements=(),
+            strict=True) -> EnergyResult:
+    e, gmax, x, steps, evals, msg, wall, cpu = out
+    converged = gmax < grad_tol
+    res = EnergyResult(
+        n=int(cage.n), spiral=tuple(int(s) for s in cage.spiral), isomer=_isomer(cage),
+        method=method, charge=int(charge), uhf=int(uhf), energy=e, converged=converged,
+        max_gradient=gmax, steps=steps, evaluations=evals, seconds=wall, cpu_seconds=cpu,
+        coords=tuple(tuple(map(float, r)) for r in x), grad_tol=float(grad_tol), message=msg,
+        model=model, elements=tuple(elements),
+    )
+    if strict and not converged:
+        raise StabilityError(
+            f"{_label(cage, charge, method)}: relaxation did not converge in {steps} steps "
+            f"(largest gradient {gmax:.2e} Eh/Bohr > grad_tol {grad_tol:g}); raise max_steps "
+            "or grad_tol, or pass strict=False to keep the partial result"
+        )
+    return res
 
 
 def relax_cage(cage, *, charge: int = 0, method: str = "GFN2-xTB", grad_tol: float = GRAD_TOL,
@@ -204,44 +274,30 @@ def relax_cage(cage, *, charge: int = 0, method: str = "GFN2-xTB", grad_tol: flo
     n = int(cage.n)
     x0 = np.asarray(symmetric_geometry(cage).coords if coords is None else coords, dtype=float)
     uhf = _uhf(n, charge)
-    calc = _calculator(method, n, x0 * BOHR_PER_ANGSTROM, charge, uhf)
-    state = {"res": None, "evals": 0}
-    t0, c0 = time.perf_counter(), time.process_time()
+    out = relax_atoms(np.full(n, 6), x0, charge=charge, uhf=uhf, method=method,
+                      grad_tol=grad_tol, max_steps=max_steps,
+                      label=_label(cage, charge, method))
+    return _result(cage, out, charge=charge, uhf=uhf, method=method, grad_tol=grad_tol,
+                   strict=strict)
 
-    def fun(flat):
-        calc.update(positions=flat.reshape(n, 3))
-        try:
-            res = calc.singlepoint(state["res"]) if state["res"] is not None else calc.singlepoint()
-        except Exception as exc:
-            raise StabilityError(
-                f"{_label(cage, charge, method)}: SCF did not converge at step "
-                f"{state['evals']}: {exc}"
-            ) from exc
-        state["res"] = res
-        state["evals"] += 1
-        return float(res.get("energy")), np.asarray(res.get("gradient")).ravel()
 
-    opt = minimize(fun, x0.ravel() * BOHR_PER_ANGSTROM, jac=True, method="L-BFGS-B",
-                   options={"maxiter": int(max_steps), "gtol": float(grad_tol), "ftol": 1e-13,
-                            "maxcor": 30})
-    e, g = fun(opt.x)
-    gmax = float(np.abs(g).max())
-    converged = gmax < grad_tol
-    out = EnergyResult(
-        n=n, spiral=tuple(int(s) for s in cage.spiral), isomer=_isomer(cage), method=method,
-        charge=int(charge), uhf=uhf, energy=e, converged=converged, max_gradient=gmax,
-        steps=int(opt.nit), evaluations=state["evals"],
-        seconds=time.perf_counter() - t0, cpu_seconds=time.process_time() - c0,
-        coords=tuple(tuple(map(float, r)) for r in (opt.x.reshape(n, 3) / BOHR_PER_ANGSTROM)),
-        grad_tol=float(grad_tol), message=str(opt.message),
-    )
-    if strict and not converged:
-        raise StabilityError(
-            f"{_label(cage, charge, method)}: relaxation did not converge in {opt.nit} steps "
-            f"(largest gradient {gmax:.2e} Eh/Bohr > grad_tol {grad_tol:g}); raise max_steps "
-            "or grad_tol, or pass strict=False to keep the partial result"
-        )
-    return out
+def relax_endohedral(cage, formula: str, *, method: str = "GFN2-xTB",
+                     grad_tol: float = GRAD_TOL, max_steps: int = MAX_STEPS,
+                     strict: bool = True) -> EnergyResult:
+    """Relax the cage with its cluster inside (M3N or one metal; :mod:`.endohedral`).
+
+    The whole molecule is neutral; electrons are paired when their number is
+    even, else one is unpaired.
+    """
+    from .endohedral import SYMBOLS, place_cluster
+
+    numbers, x0 = place_cluster(cage, formula)
+    uhf = int(sum(numbers)) % 2
+    out = relax_atoms(numbers, x0, charge=0, uhf=uhf, method=method, grad_tol=grad_tol,
+                      max_steps=max_steps, label=f"{formula} isomer {_isomer(cage)}")
+    return _result(cage, out, charge=0, uhf=uhf, method=method, grad_tol=grad_tol,
+                   model=f"cage + {formula.split('@')[0]}",
+                   elements=tuple(SYMBOLS[z] for z in numbers), strict=strict)
 
 
 def _isomer(cage) -> int:
