@@ -18,6 +18,15 @@ import argparse
 import sys
 
 from ..errors import LibraryError
+from ..library import (
+    build_library,
+    export_parquet,
+    library_info,
+    open_library,
+    parse_range,
+    query_cages,
+)
+from ..library.screen import EnergyTask, energy_screen
 
 ENERGY_METHODS = {"xtb": "GFN2-xTB", "gfn2": "GFN2-xTB", "gfn1": "GFN1-xTB"}
 
@@ -79,15 +88,10 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _build(args) -> int:
-    from ..library import build_library, parse_range
-
     rep = build_library(args.range, ipr=not args.all, path=args.path, scheduler=args.scheduler,
                         workers=args.workers, progress=not args.quiet)
     print(rep.summary())
     if args.energies:
-        from ..library import query_cages
-        from ..library.screen import EnergyTask, energy_screen
-
         method = ENERGY_METHODS[args.energies]
         table = query_cages(args.path, sizes=parse_range(args.range),
                             ipr=None if args.all else True)
@@ -103,8 +107,6 @@ def _build(args) -> int:
 
 
 def _query(args) -> int:
-    from ..library import query_cages
-
     frame = query_cages(args.path, sizes=args.range, pattern=args.pattern,
                         ipr=True if args.ipr else None, point_group=args.point_group,
                         max_pairs=args.max_pairs, limit=args.limit)
@@ -122,8 +124,6 @@ def _query(args) -> int:
 
 
 def _info(args) -> int:
-    from ..library import library_info
-
     info = library_info(args.path)
     print(f"library {info['path']} ({info['size_bytes'] / 1e6:.1f} MB): {info['cages']} cages, "
           f"{info['energies']} energies")
@@ -137,8 +137,6 @@ def _info(args) -> int:
 
 
 def _export(args) -> int:
-    from ..library import export_parquet, open_library
-
     con = open_library(args.path, read_only=True)
     try:
         files = export_parquet(con, args.folder)

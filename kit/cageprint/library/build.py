@@ -27,8 +27,15 @@ from dataclasses import dataclass, field
 from ..cage import check_n
 from ..errors import LibraryError
 from .compute import compute_piece, warm_up
-from .pieces import PIECE_PARTS, plan_pieces
-from .store import complete_ranges, done_pieces, finish_range, open_library, write_piece
+from .pieces import PIECE_PARTS, Piece, plan_pieces
+from .store import (
+    complete_ranges,
+    default_path,
+    done_pieces,
+    finish_range,
+    open_library,
+    write_piece,
+)
 
 __all__ = ["RangeReport", "BuildReport", "parse_range", "build_library", "dask_client"]
 
@@ -132,7 +139,8 @@ def dask_client(scheduler: str | None = None, workers: int | None = None):
     a free port); every worker
     compiles the kernels in a setup step.
     """
-    try:  # lazy: dask.distributed is an optional extra ([library]) and slow to import
+    try:
+        # lazy: dask.distributed is an optional extra ([library]) and slow to import
         from dask.distributed import Client, LocalCluster
         from distributed.diagnostics.plugin import WorkerPlugin
     except ImportError as exc:  # pragma: no cover - depends on the install
@@ -208,7 +216,8 @@ def build_library(sizes, *, ipr: bool = True, path=None, scheduler: str | None =
     con = open_library(path)
     try:
         done_ranges = complete_ranges(con)
-        plans, todo = {}, []
+        plans: dict[int, tuple[list[Piece], set[int]] | None] = {}
+        todo: list[Piece] = []
         for n in ns:
             if (n, scope) in done_ranges or (n, "all") in done_ranges:
                 plans[n] = None
@@ -226,9 +235,10 @@ def build_library(sizes, *, ipr: bool = True, path=None, scheduler: str | None =
 
         def store(res):
             nonlocal cpu
-            pieces = plans[res.piece.n][0]
-            write_piece(con, res.piece.n, scope, res.piece.index, res.piece.key, len(pieces),
-                        res.columns, res.seconds)
+            plan = plans[res.piece.n]
+            assert plan is not None  # only planned pieces are computed
+            write_piece(con, res.piece.n, scope, res.piece.index, piece_key=res.piece.key,
+                        pieces_total=len(plan[0]), columns=res.columns, seconds=res.seconds)
             computed[res.piece.n] = computed.get(res.piece.n, 0) + 1
             cpu += res.seconds
             if bar is not None:
@@ -239,7 +249,7 @@ def build_library(sizes, *, ipr: bool = True, path=None, scheduler: str | None =
                 for p in todo:
                     store(compute_piece(p))
             elif todo:
-                from dask.distributed import as_completed
+                from dask.distributed import as_completed  # lazy: optional extra, slow import
 
                 with dask_client(scheduler, workers) as client:
                     n_workers = len(client.scheduler_info().get("workers", {}))
@@ -253,11 +263,12 @@ def build_library(sizes, *, ipr: bool = True, path=None, scheduler: str | None =
                 bar.close()
         reports = []
         for n in ns:
-            if plans[n] is None:
+            plan = plans[n]
+            if plan is None:
                 key = (n, scope) if (n, scope) in done_ranges else (n, "all")
                 reports.append(RangeReport(n, scope, 0, 0, 0, done_ranges[key]))
                 continue
-            pieces, have = plans[n]
+            pieces, have = plan
             got = len(have) + computed.get(n, 0)
             cages = finish_range(con, n, scope, len(pieces)) if got == len(pieces) else None
             reports.append(RangeReport(n, scope, len(pieces), computed.get(n, 0), len(have),
@@ -273,6 +284,4 @@ def build_library(sizes, *, ipr: bool = True, path=None, scheduler: str | None =
 
 
 def _default():
-    from .store import default_path
-
     return default_path()

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 from ..stability.indices import stability_indices_at
 from ..symmetry import fingerprint
-from .pieces import Piece, cage_of, piece_spirals
+from .pieces import Piece, cage_of, piece_spirals, plan_pieces
 from .store import CHARGES, _q, spiral_key
 
 __all__ = ["PieceResult", "cage_columns", "compute_piece", "warm_up"]
@@ -72,8 +72,6 @@ def compute_piece(piece: Piece) -> PieceResult:
 def warm_up() -> float:
     """Compile the search and symmetry kernels in this process (a worker setup step)."""
     t0 = time.perf_counter()
-    from .pieces import plan_pieces
-
     for p in plan_pieces(36):
         for sp in piece_spirals(p).tolist()[:3]:
             cage_columns(cage_of(36, sp))

@@ -10,6 +10,7 @@ from __future__ import annotations
 import re
 from collections import Counter
 from pathlib import Path
+from typing import Any
 
 from ..candidate import Candidate
 from ..errors import LibraryError
@@ -99,7 +100,8 @@ def query_cages(path=None, *, sizes=None, pattern: str | None = None, ipr: bool 
         :data:`SHOWN_COLUMNS`; ``isomer`` is the literature number (IPR
         number for an IPR cage, else the all-isomer number).
     """
-    where, args = [], []
+    where: list[str] = []
+    args: list[Any] = []
     if pattern:
         pattern = normalise_pattern(pattern)
         where.append("nmr_pattern = ?")

@@ -114,7 +114,7 @@ def energy_screen(tasks, *, path=None, scheduler: str | None = None,
                 for t in todo:
                     store(_relax(t))
             elif todo:
-                from dask.distributed import as_completed
+                from dask.distributed import as_completed  # lazy: optional extra, slow import
 
                 with dask_client(scheduler, workers) as client:
                     futures = client.map(_relax, todo, pure=False)
@@ -226,7 +226,8 @@ def cascade(formula: str, *, shortlist: int = SHORTLIST, ipr: bool = False, path
         rows.append(CascadeRow(
             isomer=int(info["isomer"]), spiral=plain, point_group=str(info["point_group"]),
             pentagon_pairs=int(info["pentagon_pairs"]), estimate_kjmol=round(est[k], 3),
-            energy_kjmol=None if e is None else round((e - low) * KJMOL_PER_HARTREE, 3),
+            energy_kjmol=None if e is None or low is None else round(
+                (e - low) * KJMOL_PER_HARTREE, 3),
             converged=e is not None,
         ))
     rows.sort(key=lambda r: (r.energy_kjmol is None, r.energy_kjmol or 0.0, r.estimate_kjmol))

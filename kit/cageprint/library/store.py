@@ -128,7 +128,8 @@ def open_library(path=None, read_only: bool = False):
         duckdb missing, a read-only open of a file that does not exist, or a
         file held by another process (one writer at a time).
     """
-    try:  # lazy: duckdb is an optional extra ([library]) with a large compiled core
+    try:
+        # lazy: duckdb is an optional extra ([library]) with a large compiled core
         import duckdb
     except ImportError as exc:  # pragma: no cover - depends on the install
         raise LibraryError("the cage library needs the optional package duckdb; install it "
@@ -151,7 +152,7 @@ def open_library(path=None, read_only: bool = False):
     return con
 
 
-def write_piece(con, n: int, scope: str, piece: int, piece_key: str, pieces_total: int,
+def write_piece(con, n: int, scope: str, piece: int, *, piece_key: str, pieces_total: int,
                 columns: dict, seconds: float) -> int:
     """Store one finished piece (its cage rows and its piece row) in one transaction."""
     import pandas as pd  # core dependency; here only to hand columns to DuckDB

@@ -34,6 +34,7 @@ from ..cage import Cage
 from ..errors import StabilityError
 from ..settings import Settings, setting
 from ..verdict import TechniqueVerdict
+from .energy import KJMOL_PER_HARTREE, relax_cage
 from .indices import stability_indices
 from .prior import SCORE_FLOOR, TEMPERATURE, WEIGHT, stability_verdicts
 
@@ -138,8 +139,6 @@ def _indices(n: int, spiral: tuple[int, ...], charge: int):
 
 @lru_cache(maxsize=512)
 def _xtb_kjmol(n: int, spiral: tuple[int, ...], charge: int) -> float:
-    from .energy import KJMOL_PER_HARTREE, relax_cage
-
     return relax_cage(Cage.from_spiral(n, spiral), charge=charge).energy * KJMOL_PER_HARTREE
 
 

@@ -90,6 +90,8 @@ def _m3n_orientation(fused: np.ndarray, pents: np.ndarray) -> np.ndarray:
         cost = res + cand[i][1] + cand[j][1] + cand[k][1]
         if cost < best_cost - 1e-12:
             best, best_cost = r, cost
+    if best is None:
+        raise StabilityError("cluster placement: fewer than three sites to aim the metals at")
     return tri @ best.T
 
 

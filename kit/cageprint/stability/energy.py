@@ -36,6 +36,7 @@ from scipy.optimize import minimize
 
 from ..errors import StabilityError
 from ..symmetry import symmetric_geometry, to_xyz
+from .endohedral import SYMBOLS, place_cluster
 
 __all__ = [
     "BOHR_PER_ANGSTROM",
@@ -149,8 +150,8 @@ class EnergyResult:
 
 
 def _calculator(method: str, numbers, coords_bohr: np.ndarray, charge: int, uhf: int):
-    # lazy: tblite is an optional extra ([energy]) with a compiled library
     try:
+        # lazy: tblite is an optional extra ([energy]) with a compiled library
         from tblite.interface import Calculator
     except ImportError as exc:  # pragma: no cover - depends on the install
         raise StabilityError(
@@ -232,8 +233,8 @@ def _result(cage, out, *, charge, uhf, method, grad_tol, model="bare cage", elem
         n=int(cage.n), spiral=tuple(int(s) for s in cage.spiral), isomer=_isomer(cage),
         method=method, charge=int(charge), uhf=int(uhf), energy=e, converged=converged,
         max_gradient=gmax, steps=steps, evaluations=evals, seconds=wall, cpu_seconds=cpu,
-        coords=tuple(tuple(map(float, r)) for r in x), grad_tol=float(grad_tol), message=msg,
-        model=model, elements=tuple(elements),
+        coords=tuple((float(a), float(b), float(c)) for a, b, c in x),
+        grad_tol=float(grad_tol), message=msg, model=model, elements=tuple(elements),
     )
     if strict and not converged:
         raise StabilityError(
@@ -289,8 +290,6 @@ def relax_endohedral(cage, formula: str, *, method: str = "GFN2-xTB",
     The whole molecule is neutral; electrons are paired when their number is
     even, else one is unpaired.
     """
-    from .endohedral import SYMBOLS, place_cluster
-
     numbers, x0 = place_cluster(cage, formula)
     uhf = int(sum(numbers)) % 2
     out = relax_atoms(numbers, x0, charge=0, uhf=uhf, method=method, grad_tol=grad_tol,

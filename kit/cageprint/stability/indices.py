@@ -26,6 +26,7 @@ from __future__ import annotations
 import math
 from dataclasses import asdict, dataclass
 from types import MappingProxyType
+from typing import Any
 
 import numpy as np
 
@@ -302,7 +303,7 @@ def stability_indices_at(cage, charges) -> list[StabilityIndices]:
     pairs, triples, pk, hk, pent = pentagon_counts(faces, n)
     lam, vec = cage_symmetry(cage).spectrum
     pi0, gap0, _, _ = _huckel(lam, n)
-    base = dict(
+    base: dict[str, Any] = dict(
         n=n,
         pentagon_pairs=pairs,
         pentagon_triples=triples,
