@@ -231,3 +231,18 @@ def test_library_candidates(tmp_path):
         assert (a.nmr_sizes, a.ir_count, a.raman_count, a.point_group, a.spiral) == (
             b.nmr_sizes, b.ir_count, b.raman_count, b.point_group, b.spiral)
         assert a.gap_beta == pytest.approx(b.gap_beta, abs=1e-6) and a.cage_charge == -6
+
+
+def test_chooser_reads_the_library(tmp_path):
+    # the candidate chooser with a library: every cage of the size from the file (built
+    # first when missing); the same table as generating them (common practice, no source)
+    pytest.importorskip("ipywidgets")
+    from cageprint.session import Session
+    from cageprint.widgets.chooser import CandidateChooser
+
+    path = tmp_path / "ch.duckdb"
+    ch = CandidateChooser(Session(), "C50", ipr=False, library=path)
+    assert len(ch.session.candidates) == 271 and len(ch.rows) == 271
+    plain = CandidateChooser(Session(), "C50", ipr=False)
+    key = [(r["isomer"], r["lines"], r["ir"]) for r in plain.rows]
+    assert [(r["isomer"], r["lines"], r["ir"]) for r in ch.rows] == key

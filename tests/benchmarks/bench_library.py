@@ -65,12 +65,22 @@ def main() -> None:
         print(f"read back {len(table)} rows: {time.perf_counter() - t:.3f} s ({load()})")
         size = path.stat().st_size / 1e6
         print(f"library file {size:.1f} MB")
-        # the chooser's data source, all isomers of the chooser size
+        # the chooser's data source and the chooser itself, all isomers of the chooser size
         build_library([args.chooser_n], ipr=False, path=path, workers=2, progress=False)
         t = time.perf_counter()
         rows = library_cages(args.chooser_n, ipr=False, path=path, build=False)
         print(f"chooser source: {len(rows)} C{args.chooser_n} cages read in "
               f"{time.perf_counter() - t:.3f} s ({load()})")
+        try:
+            from cageprint.session import Session
+            from cageprint.widgets.chooser import CandidateChooser
+        except ImportError:
+            print("ipywidgets missing: chooser timing skipped")
+        else:
+            t = time.perf_counter()
+            ch = CandidateChooser(Session(), f"C{args.chooser_n}", ipr=False, library=path)
+            print(f"chooser: {len(ch.session.candidates)} C{args.chooser_n} candidates shown "
+                  f"from the library in {time.perf_counter() - t:.3f} s ({load()})")
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
 

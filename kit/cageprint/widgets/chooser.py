@@ -10,6 +10,7 @@ from .. import figures
 from ..cage import Cage
 from ..candidate import Candidate
 from ..errors import CageprintError
+from ..library import library_candidates
 from ..session import Session
 from ..symmetry import character_table
 from ._common import Problem
@@ -43,10 +44,16 @@ class CandidateChooser:
         Start with this formula (else the session's, e.g. from the mass step).
     ipr : bool
         IPR isomers only (default) or all isomers.
+    library : bool or path, optional
+        Read the candidates from the cage library (``True``: the default file;
+        a path: that file), building the missing sizes first with a progress
+        bar; default: generate them (``cageprint.library.library_candidates``).
     """
 
-    def __init__(self, session: Session, formula: str | None = None, ipr: bool = True):
+    def __init__(self, session: Session, formula: str | None = None, ipr: bool = True, *,
+                 library: Any = None):
         self.session = session
+        self.library = library
         self.problem = Problem("cp-chooser-error")
         self.formula = w.Text(value=formula or session.formula or "", description="formula",
                               placeholder="C78 or Sc3N@C80", continuous_update=False)
@@ -92,7 +99,11 @@ class CandidateChooser:
             return
         try:
             self.session.set_formula(text)
-            self.session.set_candidates(ipr=self.ipr.value)
+            if self.library is None:
+                self.session.set_candidates(ipr=self.ipr.value)
+            else:
+                path = None if self.library is True else self.library
+                self.session.set_candidates(library_candidates(text, self.ipr.value, path=path))
         except Exception as exc:  # shown in the widget, candidates left as they were
             self.problem.show(exc)
             return
