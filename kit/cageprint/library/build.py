@@ -37,7 +37,8 @@ from .store import (
     write_piece,
 )
 
-__all__ = ["RangeReport", "BuildReport", "parse_range", "build_library", "dask_client"]
+__all__ = ["RangeReport", "BuildReport", "parse_range", "build_library", "dask_client",
+           "run_tasks"]
 
 
 @dataclass(frozen=True)
@@ -168,6 +169,30 @@ def dask_client(scheduler: str | None = None, workers: int | None = None):
             cluster.close()
 
 
+def run_tasks(fn, tasks, store, *, scheduler: str | None = None,
+              workers: int | None = None) -> int:
+    """Run ``fn`` on every task and hand each result to ``store`` as it arrives.
+
+    ``workers=0`` runs them here in order; otherwise on Dask (see
+    :func:`dask_client`).  Returns the number of Dask workers (0 here).
+    """
+    tasks = list(tasks)
+    if not tasks:
+        return 0
+    if workers == 0:
+        for t in tasks:
+            store(fn(t))
+        return 0
+    from dask.distributed import as_completed  # lazy: optional extra, slow import
+
+    with dask_client(scheduler, workers) as client:
+        n = len(client.scheduler_info().get("workers", {}))
+        for fut in as_completed(client.map(fn, tasks, pure=False)):
+            store(fut.result())
+            fut.release()
+    return n
+
+
 def _bar(total: int, progress, desc: str):
     if not progress:
         return None
@@ -245,19 +270,10 @@ def build_library(sizes, *, ipr: bool = True, path=None, scheduler: str | None =
                 bar.update(1)
 
         try:
-            if todo and workers == 0:
-                for p in todo:
-                    store(compute_piece(p))
-            elif todo:
-                from dask.distributed import as_completed  # lazy: optional extra, slow import
-
-                with dask_client(scheduler, workers) as client:
-                    n_workers = len(client.scheduler_info().get("workers", {}))
-                    where = scheduler or "a local cluster"
-                    futures = client.map(compute_piece, todo, pure=False)
-                    for fut in as_completed(futures):
-                        store(fut.result())
-                        fut.release()
+            n_workers = run_tasks(compute_piece, todo, store, scheduler=scheduler,
+                                  workers=workers)
+            if n_workers:
+                where = scheduler or "a local cluster"
         finally:
             if bar is not None:
                 bar.close()

@@ -34,7 +34,7 @@ from ..stability.energy import (
 )
 from ..stability.indices import formal_charge
 from ..stability.prior import index_estimates
-from .build import _bar, build_library, dask_client
+from .build import _bar, build_library, run_tasks
 from .pieces import cage_of
 from .query import library_energies, library_indices, query_cages
 from .store import open_library, spiral_key, write_energy
@@ -110,17 +110,7 @@ def energy_screen(tasks, *, path=None, scheduler: str | None = None,
                 bar.update(1)
 
         try:
-            if todo and workers == 0:
-                for t in todo:
-                    store(_relax(t))
-            elif todo:
-                from dask.distributed import as_completed  # lazy: optional extra, slow import
-
-                with dask_client(scheduler, workers) as client:
-                    futures = client.map(_relax, todo, pure=False)
-                    for fut in as_completed(futures):
-                        store(fut.result())
-                        fut.release()
+            run_tasks(_relax, todo, store, scheduler=scheduler, workers=workers)
         finally:
             if bar is not None:
                 bar.close()
