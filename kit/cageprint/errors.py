@@ -21,6 +21,9 @@ __all__ = [
     "NotebookRunError",
     "StabilityError",
     "LibraryError",
+    "OutputError",
+    "ReadLimitError",
+    "ReaderWarning",
 ]
 
 
@@ -61,6 +64,18 @@ class SpectrumFormatError(CageprintError):
         super().__init__(f"{where}{message}")
 
 
+class ReadLimitError(SpectrumFormatError):
+    """An input exceeds a reader's resource budget (points, digits, bytes, depth).
+
+    The message names the file, the line and the limit; raise the limit with
+    ``limits=ReadLimits(...)`` (or the reader's keyword) to read a huge file.
+    """
+
+
+class ReaderWarning(UserWarning):
+    """A reader accepted a file by inferring something the file should have stated."""
+
+
 class SpectrumError(CageprintError):
     """A valid spectrum that cannot be processed as asked (no peaks, bad region, ...)."""
 
@@ -91,3 +106,11 @@ class StabilityError(CageprintError):
 
 class LibraryError(CageprintError):
     """The cage library file could not be opened, built or queried as asked."""
+
+
+class OutputError(SessionError, OSError):
+    """A file could not be written where asked (missing folder, bad export name, disk error).
+
+    A :class:`SessionError` (records, reports and sessions are what the kit
+    saves) and an :class:`OSError` (what a failed write is to any caller).
+    """

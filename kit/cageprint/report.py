@@ -22,9 +22,8 @@ import datetime as _dt
 import hashlib
 import html
 import json
-import os
+import os  # noqa: F401 - kept as report.os for callers that patch it
 import platform
-import tempfile
 from collections.abc import Mapping, Sequence
 from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
@@ -35,6 +34,7 @@ import numpy as np
 from .cage import Cage
 from .errors import CageprintError, SessionError
 from .evidence import Ranking, label
+from .fileio import atomic_write_text
 from .plain import plain
 from .techniques import registry
 from .techniques.nmr import estimated_stick_spectrum
@@ -58,44 +58,6 @@ RECORD_FORMAT = "cageprint-record/1"
 REPORT_MAX_ROWS = 200
 
 _LIBRARIES = ("cageprint", "numpy", "scipy", "networkx", "pandas")
-
-
-def atomic_write_text(path: str | Path, text: str) -> Path:
-    """Write ``text`` to ``path`` atomically (temp file in the same folder, fsync, replace).
-
-    Examples
-    --------
-    >>> import tempfile, pathlib
-    >>> d = pathlib.Path(tempfile.mkdtemp())
-    >>> atomic_write_text(d / "a.json", "{}").read_text()
-    '{}'
-    """
-    target = Path(path)
-    folder = target.parent if str(target.parent) else Path(".")
-    if not folder.is_dir():
-        raise SessionError(f"{target}: the folder {folder} does not exist")
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise
-    try:  # make the rename itself durable where the platform allows
-        dfd = os.open(folder, os.O_RDONLY)
-        try:
-            os.fsync(dfd)
-        finally:
-            os.close(dfd)
-    except OSError:
-        pass
-    return target
 
 
 def _versions() -> dict[str, str]:

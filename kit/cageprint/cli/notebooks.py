@@ -32,6 +32,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 from ..errors import NotebookRunError
+from ..fileio import atomic_write_text
 
 #: plotly renderer for kernels started here (see module docstring)
 PLOTLY_RENDERER = "plotly_mimetype+notebook"
@@ -232,7 +233,7 @@ def run_notebook(
     ipynb = out / src.name
     nbformat.write(nb, ipynb)
     html = out / (src.stem + ".html")
-    html.write_text(export_html(nb), encoding="utf-8")
+    atomic_write_text(html, export_html(nb))
     if error is not None:
         plain = _ANSI.sub("", error).strip()
         last = plain.splitlines()[-1] if plain else "cell failed"

@@ -18,6 +18,7 @@ import numpy as np
 
 from ..cage import iter_isomers
 from ..errors import CageprintError
+from ..fileio import atomic_write_text
 from ..symmetry import fingerprint
 from . import synth
 from .scenario import FRACTIONS, LAB, SOOT_EXTRACT, SYNTHETIC_NOTE, CageTruth, Fraction
@@ -230,10 +231,11 @@ def generate(out: str | os.PathLike) -> dict:
                        "share": c.share, "inside": c.inside} for c in frac.cages],
             "files": files, "details": details, "notes": frac.notes,
         }
-    (out / "truth.json").write_text(json.dumps(truth, indent=1, sort_keys=True) + "\n")
+    atomic_write_text(out / "truth.json", json.dumps(truth, indent=1, sort_keys=True) + "\n")
     manifest = {"generator_version": GENERATOR_VERSION, "seed": SEED,
                 "files": {p.name: hashlib.sha256(p.read_bytes()).hexdigest()
                           for p in sorted(out.iterdir())
                           if p.is_file() and p.name != "manifest.json"}}
-    (out / "manifest.json").write_text(json.dumps(manifest, indent=1, sort_keys=True) + "\n")
+    atomic_write_text(out / "manifest.json",
+                      json.dumps(manifest, indent=1, sort_keys=True) + "\n")
     return truth

@@ -12,6 +12,8 @@ from collections.abc import Mapping, Sequence
 
 import numpy as np
 
+from ..fileio import atomic_write_text
+
 # Isotope data (from memory; IUPAC/CIAAW representative compositions and AME atomic masses):
 P13C = 0.0107             # 13C abundance (IUPAC representative value, as in the NIST tables)
 P15N = 0.00364            # 15N abundance
@@ -98,16 +100,12 @@ def write_jcamp(path, x: np.ndarray, y: np.ndarray, header: Mapping[str, object]
         xv = x[0] + i * dx
         out.append(f"{xv:.6f} " + " ".join(str(int(v)) for v in yi[i:i + per_line]))
     out.append("##END=")
-    with open(path, "w", encoding="ascii", newline="\n") as fh:
-        fh.write("\n".join(out) + "\n")
+    atomic_write_text(path, "\n".join(out) + "\n", encoding="ascii")
 
 
 def write_csv(path, x: np.ndarray, y: np.ndarray, comments: Sequence[str],
               names: tuple[str, str] = ("m/z", "intensity")) -> None:
     """Write two columns as CSV with ``#`` comment lines on top."""
-    with open(path, "w", encoding="ascii", newline="\n") as fh:
-        for c in comments:
-            fh.write(f"# {c}\n")
-        fh.write(f"{names[0]},{names[1]}\n")
-        for a, b in zip(x, y, strict=True):
-            fh.write(f"{a:.4f},{b:.2f}\n")
+    lines = [f"# {c}" for c in comments] + [f"{names[0]},{names[1]}"]
+    lines += [f"{a:.4f},{b:.2f}" for a, b in zip(x, y, strict=True)]
+    atomic_write_text(path, "\n".join(lines) + "\n", encoding="ascii")

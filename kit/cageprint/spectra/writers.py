@@ -9,11 +9,11 @@ from __future__ import annotations
 
 import os
 from collections.abc import Sequence
-from pathlib import Path
 
 import numpy as np
 
 from ..errors import SpectrumError
+from ..fileio import atomic_write_bytes
 from .model import Spectrum
 
 __all__ = ["write_jcamp", "write_jcamp_link", "write_csv", "JCAMP_FORMS", "JCAMP_LINE_LENGTH"]
@@ -153,10 +153,7 @@ def _header(s: Spectrum, title: str | None, extra: Sequence[tuple[str, str]] = (
 def _to_file(text: str, path) -> bytes:
     data = text.encode("utf-8")  # ASCII for every JCAMP-DX label and table; UTF-8 titles
     if path is not None:
-        p = Path(path)
-        tmp = p.with_name(p.name + ".part")
-        tmp.write_bytes(data)
-        os.replace(tmp, p)
+        atomic_write_bytes(path, data)
     return data
 
 
