@@ -16,32 +16,39 @@ A. N. Davies, P. Lampen, "JCAMP-DX for NMR", Appl. Spectrosc. 47, 1093 (1993).
 
 from __future__ import annotations
 
+import difflib
 import re
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from ...errors import SpectrumFormatError
+from ..model import TECHNIQUES
 from ..units import normalise_y_unit
 from ._common import (
     BYTES_SOURCE,
-    MAX_POINTS,
+    PHYSICAL_X_RANGE,
+    ReadLimits,
     build_spectrum,
     check_binary,
+    check_input_size,
+    check_physical_range,
     guess_from_unit,
     is_blank,
+    limits_for,
+    reader_warning,
     resolve_technique,
     sha256,
     x_unit_for,
 )
-from .asdf import AFFN_NUMBER, decode_line, is_compressed
+from .asdf import AFFN_NUMBER, decode_line
+from .jcamp_data import X_CHECK_STEPS, Y_CHECK_RTOL, decode_pairs, decode_xydata, number
 
 __all__ = ["parse_jcamp", "jcamp_blocks", "sniff_jcamp", "X_CHECK_STEPS", "Y_CHECK_RTOL"]
 
-#: a line's X may differ from the X computed from FIRSTX/LASTX by this many steps
-X_CHECK_STEPS = 1.0
-#: relative tolerance of the DIF Y-check for non-integer ordinates
-Y_CHECK_RTOL = 1e-9
+#: a label this similar (difflib ratio) to a data-table label, followed by data lines, is taken
+#: for a damaged one
+DAMAGED_LABEL_RATIO = 0.7
 
 _DATA_LABELS = ("XYDATA", "XYPOINTS", "PEAKTABLE", "DATATABLE", "NTUPLES", "RADATA",
                 "XYDATATABLE")
@@ -62,11 +69,39 @@ class _Block:
     labels: dict = field(default_factory=dict)  # label -> (value, line)
     data: tuple | None = None  # (label, form, line, [(lineno, text)])
     children: int = 0  # data blocks found before this block began (for ##BLOCKS=)
+    stray: tuple | None = None  # (label, label line, data line): data lines after a plain label
 
 
 def _strip_comment(line: str) -> str:
     k = line.find("$$")
     return line if k < 0 else line[:k]
+
+
+def _looks_like_data(text: str, source: str, lineno: int) -> bool:
+    """True for a line that decodes as an (X++(Y..Y)) or (XY..XY) line with an ordinate."""
+    if not (text[:1].isdigit() or text[:1] in "+-."):
+        return False
+    try:
+        _, vals, _ = decode_line(text, lineno, source, room=10_000, room_why="a data line")
+    except SpectrumFormatError:
+        return False
+    return bool(vals)
+
+
+def _damaged_label(key: str) -> str | None:
+    """The data-table label ``key`` is most likely a damaged copy of, if any."""
+    best = max(_DATA_LABELS, key=lambda d: difflib.SequenceMatcher(None, key, d).ratio())
+    ratio = difflib.SequenceMatcher(None, key, best).ratio()
+    return best if ratio >= DAMAGED_LABEL_RATIO and not key.startswith("$") else None
+
+
+def _stray_error(blk: _Block, source: str) -> SpectrumFormatError:
+    label, lline, dline = blk.stray
+    return SpectrumFormatError(
+        f"block {blk.title!r} has data lines (from line {dline}) after ##{label}= (line "
+        f"{lline}) but no data-table label: a damaged ##XYDATA= / ##PEAK TABLE= label?",
+        source, lline,
+    )
 
 
 def _scan(text: str, source: str) -> list[_Block]:
@@ -75,11 +110,13 @@ def _scan(text: str, source: str) -> list[_Block]:
     leaves: list[_Block] = []
     data_lines: list | None = None
     seen_any = False
+    last_label = None  # (label text, key, line) of the last plain label
     for lineno, raw in enumerate(text.splitlines(), 1):
         line = _strip_comment(raw).rstrip()
         stripped = line.lstrip()
         if stripped.startswith("##"):
             data_lines = None
+            last_label = None
             seen_any = True
             label, eq, value = stripped[2:].partition("=")
             if not eq:
@@ -100,6 +137,8 @@ def _scan(text: str, source: str) -> list[_Block]:
             blk = stack[-1]
             if key == "END":
                 done = stack.pop()
+                if done.data is None and done.stray is not None:
+                    raise _stray_error(done, source)
                 if done.data is not None:
                     leaves.append(done)
                 elif "BLOCKS" in done.labels:
@@ -125,9 +164,17 @@ def _scan(text: str, source: str) -> list[_Block]:
                 blk.data = (key, re.sub(r"\s", "", value).upper(), lineno, data_lines)
                 continue
             blk.labels[key] = (value, lineno)
+            last_label = (label.strip(), key, lineno)
         elif stripped:
             if data_lines is not None:
                 data_lines.append((lineno, stripped))
+            elif (stack and last_label is not None and stack[-1].stray is None
+                  and not last_label[1].startswith("$")
+                  and _looks_like_data(stripped, source, lineno)):
+                blk = stack[-1]
+                blk.stray = (last_label[0], last_label[2], lineno)
+                if _damaged_label(last_label[1]):
+                    raise _stray_error(blk, source)
             elif not stack and not seen_any:
                 raise SpectrumFormatError(
                     f"not JCAMP-DX: expected '##TITLE=' first, found {stripped[:40]!r}",
@@ -143,185 +190,6 @@ def _scan(text: str, source: str) -> list[_Block]:
     if not seen_any:
         raise SpectrumFormatError("not JCAMP-DX: no ##LABEL= lines", source)
     return leaves
-
-
-def _number(blk: _Block, key: str, source: str, default=None):
-    if key not in blk.labels:
-        return default
-    value, line = blk.labels[key]
-    try:
-        v = float(value)
-    except ValueError:
-        raise SpectrumFormatError(
-            f"##{key}= must be a number, found {value[:40]!r}", source, line
-        ) from None
-    if not np.isfinite(v):
-        raise SpectrumFormatError(f"##{key}= is not finite ({value!r})", source, line)
-    return v
-
-
-def _decode_xydata(blk: _Block, source: str, max_points: int):
-    label, form, start, lines = blk.data
-    if form not in ("(X++(Y..Y))", "(X++(R..R))", "(X++(I..I))"):
-        raise SpectrumFormatError(
-            f"unsupported ##XYDATA= variable list {form!r}; expected (X++(Y..Y))", source, start
-        )
-    if not lines:
-        raise SpectrumFormatError("##XYDATA= has no data lines", source, start)
-    firstx = _number(blk, "FIRSTX", source)
-    lastx = _number(blk, "LASTX", source)
-    npoints = _number(blk, "NPOINTS", source)
-    xfactor = _number(blk, "XFACTOR", source, 1.0)
-    yfactor = _number(blk, "YFACTOR", source, 1.0)
-    deltax = _number(blk, "DELTAX", source)
-    if firstx is None:
-        raise SpectrumFormatError("##XYDATA= needs ##FIRSTX=", source, start)
-    if npoints is not None:
-        if npoints != int(npoints) or npoints < 1:
-            raise SpectrumFormatError(
-                f"##NPOINTS={blk.labels['NPOINTS'][0]} is not a positive whole number",
-                source, blk.labels["NPOINTS"][1],
-            )
-        if npoints > max_points:
-            raise SpectrumFormatError(
-                f"##NPOINTS={int(npoints)} is more than MAX_POINTS={max_points}; pass "
-                "max_points= to read it",
-                source, blk.labels["NPOINTS"][1],
-            )
-    step = None
-    if lastx is not None and npoints is not None and npoints > 1:
-        step = (lastx - firstx) / (npoints - 1)
-    elif deltax is not None:
-        step = deltax
-    compressed = is_compressed(lines)
-    ys: list = []
-    xchecks: list[tuple[int, float, int]] = []
-    prev_dif = False
-    for lineno, text in lines:
-        x, vals, ends_dif = decode_line(text, lineno, compressed, source)
-        if x is None:
-            continue
-        check = prev_dif and bool(vals)
-        if check:
-            first, last = vals[0], ys[-1]
-            same = first == last if isinstance(first, int) and isinstance(last, int) else \
-                abs(first - last) <= Y_CHECK_RTOL * max(abs(first), abs(last), 1e-300)
-            if not same:
-                raise SpectrumFormatError(
-                    f"DIF Y-check failed: the line starts with Y={first} but the previous line "
-                    f"ended with Y={last} (corrupt or edited compressed data)",
-                    source, lineno,
-                )
-            index = len(ys) - 1
-            vals = vals[1:]
-        else:
-            index = len(ys)
-        xchecks.append((lineno, x * xfactor, index))
-        ys.extend(vals)
-        if len(ys) > max_points:
-            raise SpectrumFormatError(
-                f"more than MAX_POINTS={max_points} points; pass max_points= to read it",
-                source, lineno,
-            )
-        prev_dif = ends_dif
-    n = len(ys)
-    if n == 0:
-        raise SpectrumFormatError("##XYDATA= holds no values", source, start)
-
-    def first_x_failure(dx):
-        for lineno, xl, index in xchecks:
-            expect = firstx + index * dx
-            if abs(xl - expect) > X_CHECK_STEPS * abs(dx) * (1 + 1e-9):
-                return lineno, xl, index, expect
-        return None
-
-    if npoints is not None and n != int(npoints):
-        # a wrong NPOINTS leaves the line X values consistent with the real count;
-        # a lost or extra line does not, and the X-check then points at it
-        real = (lastx - firstx) / (n - 1) if lastx is not None and n > 1 else None
-        fail = first_x_failure(step) if step else None
-        if fail is None or (real and first_x_failure(real) is None):
-            raise SpectrumFormatError(
-                f"##NPOINTS={int(npoints)} declared but the XYDATA hold {n} values",
-                source, start,
-            )
-        lineno, xl, index, expect = fail
-        raise SpectrumFormatError(
-            f"X-check failed: the line's X={xl:g} but point {index + 1} should be at "
-            f"{expect:g} (a lost or extra data line?; the block holds {n} values where "
-            f"##NPOINTS={int(npoints)}; tolerance X_CHECK_STEPS={X_CHECK_STEPS} steps)",
-            source, lineno,
-        )
-    if step:
-        fail = first_x_failure(step)
-        if fail is not None:
-            lineno, xl, index, expect = fail
-            raise SpectrumFormatError(
-                f"X-check failed: the line's X={xl:g} but point {index + 1} should be at "
-                f"{expect:g} (a lost or extra data line?; tolerance "
-                f"X_CHECK_STEPS={X_CHECK_STEPS} steps)",
-                source, lineno,
-            )
-    if lastx is not None and n > 1:
-        x = firstx + np.arange(n) * ((lastx - firstx) / (n - 1))
-        x[-1] = lastx
-    elif step is not None:
-        x = firstx + np.arange(n) * step
-    elif n == 1:
-        x = np.array([firstx])
-    else:
-        raise SpectrumFormatError("##XYDATA= needs ##LASTX= or ##DELTAX=", source, start)
-    y = np.asarray(ys, dtype=float) * yfactor
-    return x, y, None, "profile", lambda i, _s=start: _s
-
-
-def _decode_pairs(blk: _Block, source: str, max_points: int):
-    label, form, start, lines = blk.data
-    width = {"(XY..XY)": 2, "(XYW..XYW)": 3, "(XYM..XYM)": 3}.get(form)
-    if width is None:
-        raise SpectrumFormatError(
-            f"unsupported ##{label}= variable list {form!r}; expected (XY..XY) or (XYW..XYW)",
-            source, start,
-        )
-    values: list[float] = []
-    lines_of: list[int] = []
-    for lineno, text in lines:
-        if "?" in text:
-            raise SpectrumFormatError(f"missing value '?' in ##{label}=", source, lineno)
-        rest = AFFN_NUMBER.sub(" ", text)
-        bad = re.sub(r"[\s,;]", "", rest)
-        if bad:
-            raise SpectrumFormatError(
-                f"unexpected text {bad[:20]!r} in ##{label}=; expected numbers", source, lineno
-            )
-        found = [float(t) for t in AFFN_NUMBER.findall(text)]
-        values.extend(found)
-        lines_of.extend([lineno] * len(found))
-        if len(values) > width * max_points:
-            raise SpectrumFormatError(
-                f"more than MAX_POINTS={max_points} points; pass max_points= to read it",
-                source, lineno,
-            )
-    if len(values) % width:
-        raise SpectrumFormatError(
-            f"##{label}={form} holds {len(values)} numbers, not a multiple of {width}",
-            source, lines_of[-1] if lines_of else start,
-        )
-    arr = np.asarray(values, dtype=float).reshape(-1, width)
-    npoints = _number(blk, "NPOINTS", source)
-    if npoints is not None and int(npoints) != arr.shape[0]:
-        raise SpectrumFormatError(
-            f"##NPOINTS={int(npoints)} declared but ##{label}= holds {arr.shape[0]} points",
-            source, start,
-        )
-    xfactor = _number(blk, "XFACTOR", source, 1.0)
-    yfactor = _number(blk, "YFACTOR", source, 1.0)
-    x = arr[:, 0] * xfactor
-    y = arr[:, 1] * yfactor
-    w = arr[:, 2] * xfactor if width == 3 and form == "(XYW..XYW)" else None
-    kind = "peaks" if label == "PEAKTABLE" else "profile"
-    rows = np.asarray(lines_of[::width], dtype=np.int64)
-    return x, y, w, kind, lambda i, _r=rows: int(_r[i]) if 0 <= i < _r.size else None
 
 
 def _technique_of(blk: _Block) -> tuple[str | None, str]:
@@ -352,14 +220,22 @@ def jcamp_blocks(data: bytes, source: str = BYTES_SOURCE, **_: object) -> list[d
             "data_type": b.labels.get("DATATYPE", ("", 0))[0],
             "table": b.data[0] if b.data else None,
             "block_id": b.labels.get("BLOCKID", (None, 0))[0],
-            "npoints": int(float(npts)) if npts not in (None, "") and
-            AFFN_NUMBER.fullmatch(npts.strip()) else None,
+            "npoints": _whole(npts),
             "line": b.line,
         })
     return out
 
 
-def _decode(data: bytes, source: str) -> str:
+def _whole(text) -> int | None:
+    """A label's value as a whole number, or None (absent, not a number, not finite)."""
+    if text is None or len(text) > 40 or not AFFN_NUMBER.fullmatch(text.strip()):
+        return None
+    v = float(text)
+    return int(v) if np.isfinite(v) and v == int(v) else None
+
+
+def _decode(data: bytes, source: str, limits: ReadLimits | None = None) -> str:
+    check_input_size(data, source, limits or ReadLimits())
     if is_blank(data):
         raise SpectrumFormatError("empty input: no data at all", source)
     if data.startswith((b"\xff\xfe", b"\xfe\xff")):
@@ -405,17 +281,109 @@ def _shift_reference(blk: _Block, source: str):
     value, line = blk.labels[".SHIFTREFERENCE"]
     parts = [p.strip() for p in value.strip().strip("()").split(",")]
     try:
-        return parts[1], int(float(parts[2])), float(parts[3])
+        point, ppm = float(parts[2]), float(parts[3])
     except (IndexError, ValueError):
         raise SpectrumFormatError(
             f"##.SHIFT REFERENCE= should read (INTERNAL, compound, point, ppm), found {value!r}",
             source, line,
         ) from None
+    lo, hi = PHYSICAL_X_RANGE["nmr"]
+    if not (np.isfinite(ppm) and lo <= ppm <= hi):
+        raise SpectrumFormatError(
+            f"##.SHIFT REFERENCE= gives the shift {parts[3]!r}, not a finite number within "
+            f"{lo:g} to {hi:g} ppm",
+            source, line,
+        )
+    if not (np.isfinite(point) and point == int(point) and 1 <= point <= 10**12):
+        raise SpectrumFormatError(
+            f"##.SHIFT REFERENCE= names point {parts[2]!r}, not a whole point number",
+            source, line,
+        )
+    return parts[1], int(point), ppm
+
+
+def _x_unit(blk: _Block, tech: str, x, given: str | None, source: str, meta: dict):
+    """The file's x unit: ##XUNITS=, else the caller's ``x_unit``, else inferred with a warning."""
+    text, line = blk.labels.get("XUNITS", (None, None))
+    xu = x_unit_for(text, None, source, line)
+    if given is not None:
+        want = x_unit_for(given, None, source)
+        if xu is not None and want != xu:
+            raise SpectrumFormatError(
+                f"the file declares ##XUNITS={text} but x_unit={given!r} was given; pass "
+                "x_unit=None to use the file's",
+                source, line,
+            )
+        return want
+    if xu is not None:
+        return xu
+    unit = TECHNIQUES[tech]
+    if tech == "nmr":  # JCAMP-DX NMR tables are commonly in Hz (Davies & Lampen 1993)
+        raise SpectrumFormatError(
+            "the NMR block has no ##XUNITS=: its x may be Hz or ppm; pass x_unit='Hz' or "
+            "x_unit='ppm'",
+            source, blk.line,
+        )
+    lo, hi = PHYSICAL_X_RANGE[tech]
+    if np.any((x < lo) | (x > hi)):
+        raise SpectrumFormatError(
+            f"the block has no ##XUNITS= and x from {float(np.min(x)):g} to "
+            f"{float(np.max(x)):g} is not a {tech} axis in {unit}; pass x_unit=",
+            source, blk.line,
+        )
+    reader_warning(meta, f"no ##XUNITS=: x read as {unit} (the {tech} unit); pass x_unit= "
+                   "to state it", source, blk.line)
+    return unit
+
+
+def _with_reference(s, ref, x, xu, mhz, blk: _Block, source: str, apply: bool):
+    compound, point, ppm = ref
+    xs_file = x if xu != "Hz" else x / mhz
+    line = blk.labels[".SHIFTREFERENCE"][1]
+    if not 1 <= point <= xs_file.size:
+        raise SpectrumFormatError(
+            f"##.SHIFT REFERENCE= names point {point} but the block has {xs_file.size}",
+            source, line,
+        )
+    offset = ppm - xs_file[point - 1]
+    m2 = dict(s.meta)
+    m2["shift_reference"] = {"compound": compound, "point": point, "ppm": ppm,
+                             "offset_applied": float(offset) if apply else 0.0}
+    m2.setdefault("solvent", compound)
+    new_x = s.x + offset if apply else s.x
+    try:
+        check_physical_range(new_x, "nmr", source)
+    except SpectrumFormatError as exc:
+        raise SpectrumFormatError(
+            f"after ##.SHIFT REFERENCE= (offset {offset:g} ppm): "
+            f"{str(exc).split(': ', 1)[-1]}",
+            source, line,
+        ) from None
+    return s.replace(x=new_x, meta=m2)
+
+
+def _decode_table(blk: _Block, source: str, limits: ReadLimits):
+    if blk.data is None:
+        raise SpectrumFormatError(
+            f"block {blk.title!r} has no data table (##XYDATA=, ##XYPOINTS= or ##PEAK TABLE=)",
+            source, blk.line,
+        )
+    label = blk.data[0]
+    if label == "XYDATA":
+        return decode_xydata(blk, source, limits)
+    if label in ("XYPOINTS", "PEAKTABLE"):
+        return decode_pairs(blk, source, limits)
+    raise SpectrumFormatError(
+        f"##{label}= tables are not supported; expected ##XYDATA=, ##XYPOINTS= or "
+        "##PEAK TABLE=",
+        source, blk.data[2],
+    )
 
 
 def parse_jcamp(data: bytes, source: str = BYTES_SOURCE, *, technique: str | None = None,
-                block=None, observe_mhz: float | None = None, max_points: int = MAX_POINTS,
-                apply_shift_reference: bool = True, meta: dict | None = None):
+                block=None, observe_mhz: float | None = None, max_points: int | None = None,
+                apply_shift_reference: bool = True, meta: dict | None = None,
+                x_unit: str | None = None, limits: ReadLimits | None = None):
     """Read one spectrum from JCAMP-DX text.
 
     Parameters
@@ -434,6 +402,13 @@ def parse_jcamp(data: bytes, source: str = BYTES_SOURCE, *, technique: str | Non
     apply_shift_reference : bool
         Shift the ppm axis so the point named by ``##.SHIFT REFERENCE=`` sits at
         its stated shift.
+    x_unit : str, optional
+        The x unit of a block without ``##XUNITS=`` (without it the unit is
+        inferred from the technique with a :class:`~cageprint.errors.ReaderWarning`,
+        and an NMR block is refused: Hz or ppm cannot be told apart).
+    limits : ReadLimits, optional
+        Resource budget (points, digits, input size); ``max_points`` overrides
+        its ``max_points``.
 
     Examples
     --------
@@ -445,31 +420,18 @@ def parse_jcamp(data: bytes, source: str = BYTES_SOURCE, *, technique: str | Non
     >>> s.technique, s.x.tolist(), s.y.tolist()
     ('ir', [400.0, 402.0, 404.0, 406.0, 408.0, 410.0], [0.1, 0.2, 0.2, 0.3, 0.2, 0.2])
     """
-    text = _decode(data, source)
+    limits = limits_for(limits, max_points)
+    text = _decode(data, source, limits)
     blocks = _scan(text, source)
     index, blk = _choose(blocks, block, source)
-    if blk.data is None:
-        raise SpectrumFormatError(
-            f"block {blk.title!r} has no data table (##XYDATA=, ##XYPOINTS= or ##PEAK TABLE=)",
-            source, blk.line,
-        )
+    x, y, w, kind, line_of = _decode_table(blk, source, limits)
     label = blk.data[0]
-    if label in ("XYDATA",):
-        x, y, w, kind, line_of = _decode_xydata(blk, source, max_points)
-    elif label in ("XYPOINTS", "PEAKTABLE"):
-        x, y, w, kind, line_of = _decode_pairs(blk, source, max_points)
-    else:
-        raise SpectrumFormatError(
-            f"##{label}= tables are not supported; expected ##XYDATA=, ##XYPOINTS= or "
-            "##PEAK TABLE=",
-            source, blk.data[2],
-        )
     xunits = blk.labels.get("XUNITS", (None, None))
     xu = x_unit_for(xunits[0], None, source, xunits[1])
     guessed, why = _technique_of(blk)
     declared = guessed is not None
     if guessed is None:
-        guessed = guess_from_unit(xu)
+        guessed = guess_from_unit(xu or (x_unit_for(x_unit, None, source) if x_unit else None))
         why = f"{why}, x unit {xu!r}"
     tech = resolve_technique(technique, guessed, declared, source, why)
     m = {
@@ -483,7 +445,8 @@ def parse_jcamp(data: bytes, source: str = BYTES_SOURCE, *, technique: str | Non
                       (".SOLVENTNAME", "solvent"), (".OBSERVENUCLEUS", "nucleus")):
         if key in blk.labels:
             m[name] = blk.labels[key][0]
-    mhz = _number(blk, ".OBSERVEFREQUENCY", source)
+    xu = _x_unit(blk, tech, x, x_unit, source, m)
+    mhz = number(blk, ".OBSERVEFREQUENCY", source)
     if mhz is not None:
         m["observe_mhz"] = mhz
     elif observe_mhz is not None:
@@ -507,26 +470,13 @@ def parse_jcamp(data: bytes, source: str = BYTES_SOURCE, *, technique: str | Non
     s = build_spectrum(
         x, y, technique=tech, x_unit=xu, y_unit=normalise_y_unit(yunits or "intensity"),
         kind=kind, source=source, meta=m, widths=w, observe_mhz=mhz, line_of=line_of,
-        max_points=max_points, check_order=kind == "profile",
+        max_points=limits.max_points, check_order=kind == "profile",
     )
     if kind == "peaks" and np.unique(s.x).size != s.x.size:
         raise SpectrumFormatError("duplicate peak position in ##PEAK TABLE=", source,
                                   blk.data[2])
     if ref is not None:
-        compound, point, ppm = ref
-        xs_file = x if xu != "Hz" else x / mhz
-        if not 1 <= point <= xs_file.size:
-            raise SpectrumFormatError(
-                f"##.SHIFT REFERENCE= names point {point} but the block has {xs_file.size}",
-                source, blk.labels[".SHIFTREFERENCE"][1],
-            )
-        offset = ppm - xs_file[point - 1]
-        m2 = dict(s.meta)
-        m2["shift_reference"] = {"compound": compound, "point": point, "ppm": ppm,
-                                 "offset_applied": float(offset) if apply_shift_reference
-                                 else 0.0}
-        m2.setdefault("solvent", compound)
-        s = s.replace(x=s.x + offset if apply_shift_reference else s.x, meta=m2)
+        s = _with_reference(s, ref, x, xu, mhz, blk, source, apply_shift_reference)
     return s
 
 
