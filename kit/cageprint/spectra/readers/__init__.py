@@ -17,9 +17,10 @@ from typing import Any
 from ...errors import SpectrumFormatError
 from ..model import Spectrum
 from ._common import BYTES_SOURCE, MAX_POINTS, check_binary, is_blank
-from .delimited import parse_delimited, parse_peaklist, sniff_delimited
+from .delimited import parse_delimited, sniff_delimited
 from .jcamp import jcamp_blocks, parse_jcamp, sniff_jcamp
 from .mzml import mzml_blocks, parse_mzml, sniff_mzml
+from .peaklist import parse_peaklist
 
 __all__ = [
     "READERS",

@@ -129,8 +129,12 @@ def check_digits(text: str | bytes, source: str, limits: ReadLimits, first_line:
                          source, line)
 
 
-def inflate(data: bytes, limit: int, source: str, line: int | None = None) -> bytes:
+def inflate(data: bytes, limit: int, source: str, line: int | None = None,
+            stated: str | None = None) -> bytes:
     """zlib-decompress ``data``, refusing output beyond ``limit`` bytes before it is made.
+
+    ``limit`` is ``max_decompressed_bytes``, or the size the file ``stated``
+    for the array (then named in the message).
 
     Examples
     --------
@@ -139,13 +143,12 @@ def inflate(data: bytes, limit: int, source: str, line: int | None = None) -> by
     """
     d = zlib.decompressobj()
     try:
-        out = d.decompress(data, limit)
-        if d.unconsumed_tail:
-            raise over_limit(f"a compressed array inflating past {limit} bytes",
-                             "max_decompressed_bytes", limit, source, line)
-        out += d.flush(limit + 1 - len(out))
+        out = d.decompress(data, limit + 1)  # at most one byte past the limit is ever made
     except zlib.error as exc:
         raise SpectrumFormatError(f"corrupt zlib data ({exc})", source, line) from None
+    if len(out) > limit and stated is not None:
+        raise SpectrumFormatError(f"{stated} inflates past the {limit} bytes its stated "
+                                  "length needs (damaged data or a wrong length)", source, line)
     if len(out) > limit:
         raise over_limit(f"a compressed array inflating past {limit} bytes",
                          "max_decompressed_bytes", limit, source, line)

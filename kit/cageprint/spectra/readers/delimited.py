@@ -19,16 +19,20 @@ from ...errors import SpectrumFormatError
 from ..units import Y_MEANINGS, normalise_y_unit
 from ._common import (
     BYTES_SOURCE,
-    MAX_POINTS,
+    ReadLimits,
     build_spectrum,
+    check_digits,
+    check_input_size,
     decode_text,
     guess_from_unit,
+    limits_for,
     resolve_technique,
     sha256,
     x_unit_for,
 )
 
-__all__ = ["parse_delimited", "parse_peaklist", "sniff_delimited", "COMMENT_PREFIXES"]
+__all__ = ["parse_delimited", "sniff_delimited", "read_table", "describe_table",
+           "COMMENT_PREFIXES"]
 
 #: a line starting (after blanks) with one of these is a comment
 COMMENT_PREFIXES = ("#", "%", "!", "//")
@@ -157,14 +161,16 @@ def _column_index(
     raise SpectrumFormatError(f"{what}={want!r} names no column; the columns are {shown}", source)
 
 
-def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
+def read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
     """Parse the numeric table; ``wanted`` maps role -> (option value, default index)."""
     import pandas as pd  # slow to import: only when a table is read
 
     encoding = opts.pop("encoding", None)
+    limits = opts["limits"]
+    check_input_size(data, source, limits)
     utf8 = (str(encoding or "utf-8").lower().replace("_", "-") in ("utf-8", "utf8", "utf-8-sig")
             and not data.startswith((b"\xff\xfe", b"\xfe\xff")))
-    max_points = opts.get("max_points", MAX_POINTS)
+    max_points = limits.max_points
     # refuse oversized input from the byte count alone, before decoding anything
     utf16 = data.startswith((b"\xff\xfe", b"\xfe\xff"))
     nlines = data.count(b"\n\x00" if data.startswith(b"\xff\xfe") else b"\x00\n") if utf16 \
@@ -176,6 +182,7 @@ def _read_table(data: bytes, source: str, opts: dict, wanted: dict) -> _Table:
             source,
         )
     text = decode_text(data, source, encoding)
+    check_digits(text, source, limits)
     mac_endings = "\n" not in text and "\r" in text
     if mac_endings:
         text = text.replace("\r", "\n")
@@ -447,8 +454,8 @@ def _meta(table: _Table, data: bytes, source: str, fmt: str) -> dict:
     return m
 
 
-def _describe(table, data: bytes, source: str, fmt: str, *, technique, x_unit, y_unit,
-              observe_mhz, meta):
+def describe_table(table, data: bytes, source: str, fmt: str, *, technique, x_unit, y_unit,
+                   observe_mhz, meta):
     """Technique, x unit, y meaning, metadata and spectrometer MHz of a read table."""
     xu = _x_unit_from_header(table, table.idx["x"], source, x_unit)
     guessed, why = _guess(table, xu)
@@ -471,8 +478,8 @@ def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str |
                     x_column=None, y_column=None, x_unit: str | None = None,
                     y_unit: str | None = None, observe_mhz: float | None = None,
                     delimiter: str = "auto", decimal: str = "auto",
-                    encoding: str | None = None, max_points: int = MAX_POINTS,
-                    meta: dict | None = None):
+                    encoding: str | None = None, max_points: int | None = None,
+                    meta: dict | None = None, limits: ReadLimits | None = None):
     """Read a profile spectrum from delimited text (CSV, TSV, whitespace columns).
 
     Parameters
@@ -491,8 +498,10 @@ def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str |
     decimal : {"auto", ".", ","}
     encoding : str, optional
         Text encoding; UTF-8 (with or without BOM) by default.
-    max_points : int
+    max_points : int, optional
         Refuse files with more points (default ``MAX_POINTS``).
+    limits : ReadLimits, optional
+        The resource budget (points, digits in a number, input size).
 
     Returns
     -------
@@ -510,68 +519,17 @@ def parse_delimited(data: bytes, source: str = BYTES_SOURCE, *, technique: str |
     >>> s.x.tolist(), s.y.tolist(), s.y_unit
     ([500.5, 510.0], [0.1, 0.3], 'absorbance')
     """
-    opts = dict(delimiter=delimiter, decimal=decimal, encoding=encoding, max_points=max_points)
-    table = _read_table(data, source, opts, {"x": (x_column, 0), "y": (y_column, 1)})
-    tech, xu, yu, m, observe_mhz = _describe(
+    limits = limits_for(limits, max_points)
+    opts = dict(delimiter=delimiter, decimal=decimal, encoding=encoding, limits=limits)
+    table = read_table(data, source, opts, {"x": (x_column, 0), "y": (y_column, 1)})
+    tech, xu, yu, m, observe_mhz = describe_table(
         table, data, source, "delimited", technique=technique, x_unit=x_unit, y_unit=y_unit,
         observe_mhz=observe_mhz, meta=meta,
     )
     return build_spectrum(
         table.columns["x"], table.columns["y"], technique=tech, x_unit=xu, y_unit=yu,
         kind="profile", source=source, meta=m, observe_mhz=observe_mhz,
-        line_of=table.line_of, max_points=max_points,
-    )
-
-
-def parse_peaklist(data: bytes, source: str = BYTES_SOURCE, *, technique: str | None = None,
-                   x_column=None, y_column=None, width_column=None,
-                   x_unit: str | None = None, y_unit: str | None = None,
-                   observe_mhz: float | None = None, delimiter: str = "auto",
-                   decimal: str = "auto", encoding: str | None = None,
-                   max_points: int = MAX_POINTS, meta: dict | None = None):
-    """Read a plain peak list: position, intensity[, width] -> ``Spectrum(kind="peaks")``.
-
-    Same text rules as :func:`parse_delimited`; the rows may come in any
-    order (they are sorted) but positions must not repeat.  A third column is
-    taken as the width (same unit as the position) unless ``width_column`` says
-    otherwise.
-
-    Examples
-    --------
-    >>> s = parse_peaklist(b"ppm intensity width\\n143.1 5 0.02\\n147.5 10 0.02\\n",
-    ...                    technique="nmr")
-    >>> s.kind, s.x.tolist(), s.widths.tolist()
-    ('peaks', [143.1, 147.5], [0.02, 0.02])
-    """
-    opts = dict(delimiter=delimiter, decimal=decimal, encoding=encoding, max_points=max_points)
-    table = _read_table(
-        data, source, opts, {"x": (x_column, 0), "y": (y_column, 1), "width": (width_column, 2)}
-    )
-    tech, xu, yu, m, observe_mhz = _describe(
-        table, data, source, "peaklist", technique=technique, x_unit=x_unit, y_unit=y_unit,
-        observe_mhz=observe_mhz, meta=meta,
-    )
-    widths = table.columns.get("width")
-    if widths is not None and np.any(widths < 0):
-        i = int(np.flatnonzero(widths < 0)[0])
-        raise SpectrumFormatError(
-            f"negative peak width {float(widths[i])!r}; widths must be >= 0",
-            source, table.line_of(i),
-        )
-    x = table.columns["x"]
-    order = np.argsort(x, kind="stable")
-    sx = x[order]
-    dup = np.flatnonzero(np.diff(sx) == 0)
-    if dup.size:
-        i = int(order[dup[0] + 1])
-        raise SpectrumFormatError(
-            f"duplicate peak position {float(x[i])!r}; merge the rows first",
-            source, table.line_of(i),
-        )
-    return build_spectrum(
-        x, table.columns["y"], technique=tech, x_unit=xu, y_unit=yu, kind="peaks",
-        source=source, meta=m, widths=widths, observe_mhz=observe_mhz,
-        line_of=table.line_of, max_points=max_points, check_order=False,
+        line_of=table.line_of, max_points=limits.max_points,
     )
 
 
