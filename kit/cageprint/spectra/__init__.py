@@ -18,6 +18,7 @@ from .processing import (
 from .readers import (
     MAX_POINTS,
     READERS,
+    ReadLimits,
     jcamp_blocks,
     list_blocks,
     load_spectrum,
@@ -74,6 +75,7 @@ __all__ = [  # alphabetical
     "read_mzml",
     "read_peaklist",
     "READERS",
+    "ReadLimits",
     "reference_lines",
     "REFERENCE_TOL",
     "ReferenceMarks",

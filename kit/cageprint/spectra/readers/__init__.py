@@ -16,7 +16,7 @@ from typing import Any
 
 from ...errors import SpectrumFormatError
 from ..model import Spectrum
-from ._common import BYTES_SOURCE, MAX_POINTS, check_binary, is_blank
+from ._common import BYTES_SOURCE, MAX_POINTS, ReadLimits, check_binary, is_blank
 from .delimited import parse_delimited, sniff_delimited
 from .jcamp import jcamp_blocks, parse_jcamp, sniff_jcamp
 from .mzml import mzml_blocks, parse_mzml, sniff_mzml
@@ -40,6 +40,7 @@ __all__ = [
     "read_mzml",
     "mzml_blocks",
     "MAX_POINTS",
+    "ReadLimits",
     "SNIFF_BYTES",
 ]
 

@@ -39,8 +39,6 @@ _TOKEN_AFFN = re.compile(
     r"([+-]?(?:\d+\.?\d*|\.\d+)(?:[Ee][+-]?\d+)?)|(\?)|([\s,;]+)"
 )
 AFFN_NUMBER = re.compile(r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[Ee][+-]?\d+)?")
-_AFFN_LINE = re.compile(r"[\s,;]*" + AFFN_NUMBER.pattern + r"(?:[\s,;]+(?:"
-                        + AFFN_NUMBER.pattern + r"|\?))+[\s,;]*")
 
 
 def line_is_compressed(text: str) -> bool:
@@ -55,7 +53,21 @@ def line_is_compressed(text: str) -> bool:
     """
     if _COMPRESSED_RE.search(text):
         return True
-    return _AFFN_LINE.fullmatch(text) is None
+    # token by token (one pass, no backtracking): AFFN numbers and '?' apart, X and an ordinate
+    numbers, pos, sep_before = 0, 0, True
+    while pos < len(text):
+        m = _TOKEN_AFFN.match(text, pos)
+        if m is None:
+            return True
+        if m.group(3) is not None:
+            sep_before = True
+        elif not sep_before and numbers:
+            return True  # "1+2" or "1E5E3": numbers run together, as only PAC/SQZ write them
+        else:
+            numbers += 1
+            sep_before = False
+        pos = m.end()
+    return numbers < 2
 
 
 def _num(text: str, source: str, lineno: int) -> int | float:
