@@ -100,14 +100,14 @@ def clean_stale_temps(folder: str | os.PathLike) -> list[Path]:
     >>> len(clean_stale_temps(d)), list(d.iterdir())
     (1, [])
     """
-    removed = []
+    removed: list[Path] = []
     try:
-        entries = list(os.scandir(folder))
+        entries = list(os.scandir(os.fspath(folder)))
     except OSError:
         return removed
     now = time.time()
     for entry in entries:
-        m = _TEMP_NAME.match(entry.name)
+        m = _TEMP_NAME.match(str(entry.name))
         if m is None:
             continue
         try:

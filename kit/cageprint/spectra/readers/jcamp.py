@@ -336,7 +336,7 @@ def _x_unit(blk: _Block, tech: str, x, given: str | None, source: str, meta: dic
     return unit
 
 
-def _with_reference(s, ref, x, xu, mhz, blk: _Block, source: str, apply: bool):
+def _with_reference(s, ref, x, *, xu, mhz, blk: _Block, source: str, apply: bool):
     compound, point, ppm = ref
     xs_file = x if xu != "Hz" else x / mhz
     line = blk.labels[".SHIFTREFERENCE"][1]
@@ -476,7 +476,8 @@ def parse_jcamp(data: bytes, source: str = BYTES_SOURCE, *, technique: str | Non
         raise SpectrumFormatError("duplicate peak position in ##PEAK TABLE=", source,
                                   blk.data[2])
     if ref is not None:
-        s = _with_reference(s, ref, x, xu, mhz, blk, source, apply_shift_reference)
+        s = _with_reference(s, ref, x, xu=xu, mhz=mhz, blk=blk, source=source,
+                            apply=apply_shift_reference)
     return s
 
 
