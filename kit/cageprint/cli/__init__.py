@@ -7,19 +7,23 @@ command is added by writing such a module, importing it here and naming it in
 ``COMMANDS``.
 
 Errors of the kit (:class:`cageprint.errors.CageprintError`) are printed on
-one line to standard error and the command exits with status 2.
+one line to standard error and the command exits with status 2; a command that
+ran but found nothing in its input exits with 1 (see `cli._checks`).  Warnings of the
+readers are printed as one line each; third-party library warnings are muted.
 """
 
 from __future__ import annotations
 
 import argparse
 import sys
+import warnings
 from collections.abc import Sequence
 from types import ModuleType
 
 from .. import __version__
-from ..errors import CageprintError
+from ..errors import CageprintError, ReaderWarning
 from . import assign, demo, envelope, isomers, library, mass, notebooks
+from ._checks import EXIT_ERROR, one_line
 
 #: sub-command name -> its module in this package
 COMMANDS: dict[str, ModuleType] = {
@@ -53,11 +57,18 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit status."""
     parser = build_parser()
     args = parser.parse_args(argv)
+
+    def show(message, category, *_):  # the kit's warnings as one line each; libraries' muted
+        if issubclass(category, ReaderWarning):
+            print(f"cageprint {args.command}: warning: {one_line(message)}", file=sys.stderr)
+
     try:
-        return int(args._run(args) or 0)
+        with warnings.catch_warnings():
+            warnings.simplefilter("always")
+            warnings.showwarning = show
+            return int(args._run(args) or 0)
     except CageprintError as exc:
-        msg = " ".join(str(exc).split())
-        print(f"cageprint {args.command}: error: {msg}", file=sys.stderr)
-        return 2
+        print(f"cageprint {args.command}: error: {one_line(exc)}", file=sys.stderr)
+        return EXIT_ERROR
     except BrokenPipeError:  # e.g. `cageprint isomers 60 | head`
         return 0

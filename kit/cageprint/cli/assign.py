@@ -12,6 +12,7 @@ from ..report import first_candidate_sticks, make_record, save_record, save_repo
 from ..session import Session
 from ..settings import Spec
 from ..techniques import registry
+from ._checks import EXIT_NOTHING, EXIT_STATUS_HELP, check_count, check_output, check_text, shown
 
 
 def add_parser(sub: Any) -> argparse.ArgumentParser:
@@ -21,6 +22,7 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
         description="Generate the candidate cages of FORMULA, compare each with the spectra "
         "given, and print the ranked table (ties shared, ruled-out candidates shown). "
         "Each FILE may be in any format the readers take, including a plain peak list.",
+        epilog=EXIT_STATUS_HELP,
     )
     p.add_argument("formula", help="cage formula, e.g. C78 or Sc3N@C80 (a bare 78 also works)")
     p.add_argument("--ipr", action="store_true", help="IPR isomers only (default: all isomers)")
@@ -153,8 +155,38 @@ def _print_table(session: Session, top: int, out: Any) -> None:
         print("every candidate is ruled out by the evidence as weighted", file=out)
 
 
+def check_args(args: argparse.Namespace) -> None:
+    """Refuse bad arguments before any work (and before any file is written)."""
+    check_text(args.formula, "FORMULA")
+    check_text(args.sample, "--sample")
+    for technique in registry.techniques():
+        if technique.cli_flag:
+            check_text(getattr(args, f"input_{technique.key}", None), technique.cli_flag)
+    check_output(args.record, "--record", ".json")
+    check_output(args.report, "--report", ".html")
+    check_count(args.top, "--top")
+
+
+def found_nothing(session: Session) -> str | None:
+    """Why the run found nothing: a spectrum given in which no line, band or peak was seen."""
+    for t in session.techniques_with_data():
+        tech = registry.get(t)
+        if not tech.needs_spectrum:
+            continue
+        if len(tech.marks(session.observation(t))) == 0:
+            return (f"nothing found: no {tech.observed_noun} observed in the {tech.label} "
+                    f"spectrum '{shown(session.sources.get(t, ''))}' with the settings used "
+                    f"({settings_used(session, t)}); lower a threshold with --set")
+    return None
+
+
 def run(args: argparse.Namespace) -> int:
+    check_args(args)
     session = build_session(args)
+    nothing = found_nothing(session)
+    if nothing is not None:
+        print(f"cageprint assign: {nothing}", file=sys.stderr)
+        return EXIT_NOTHING
     ranking = session.ranking
     out = sys.stdout
     if args.csv:

@@ -8,6 +8,8 @@ import sys
 from ..errors import FormulaError
 from ..spectra.readers import load_spectrum
 from ..techniques.mass import MASS_TOL_FLOOR, MASS_TOL_PPM, PEAK_SNR, observe_mass
+from ._checks import EXIT_NOTHING, EXIT_STATUS_HELP
+from ._checks import shown as printable
 
 COLUMNS = ("formula", "charge", "mz", "relative_abundance", "error_ppm", "envelope_score",
            "kind", "cage_n", "cage_charge", "c13_fraction", "c13_fraction_err")
@@ -21,6 +23,7 @@ def add_parser(sub) -> argparse.ArgumentParser:
         "formulas in a mass spectrum (CSV/text columns, peak list, JCAMP-DX or mzML); print "
         "one species a row, then every envelope above the noise that no species explains "
         "(on standard error with --csv).",
+        epilog=EXIT_STATUS_HELP,
     )
     p.add_argument("file", metavar="FILE", help="mass spectrum file")
     p.add_argument("--csv", action="store_true", help="write comma-separated values")
@@ -65,6 +68,13 @@ def run(args) -> int:
     unexplained = [f"# unexplained envelope at m/z {u.mz:.3f} (height {u.relative_height:.3g} "
                    f"of the tallest; m/z {u.mz_lo:.1f}-{u.mz_hi:.1f}): {u.reason}"
                    for u in obs.unexplained]
+    if not rows:
+        d = obs.diagnostics
+        print(f"cageprint mass: nothing found: no cage species in '{printable(args.file)}' "
+              f"({d['n_peaks']} peaks above snr={args.snr:g}, {len(unexplained)} unexplained "
+              "envelopes); lower --snr or widen --ppm",
+              file=sys.stderr)
+        return EXIT_NOTHING
     if args.csv:
         print(",".join(COLUMNS))
         for r in rows:
