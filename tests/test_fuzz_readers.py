@@ -10,6 +10,7 @@ from __future__ import annotations
 import warnings
 
 import pytest
+
 from fuzzkit import DICTIONARY, FAMILIES, run_one
 
 hypothesis = pytest.importorskip("hypothesis")

@@ -16,11 +16,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from fuzzkit import mzml_document
 
 from cageprint.errors import ReaderWarning, ReadLimitError, SpectrumFormatError
 from cageprint.spectra import Spectrum, list_blocks, load_spectrum, write_jcamp, write_jcamp_link
 from cageprint.spectra.readers import ReadLimits
+from fuzzkit import mzml_document
 
 KIT = str(Path(__file__).resolve().parents[1] / "kit")
 HEAD = (b"##TITLE=t\n##JCAMP-DX=4.24\n##DATA TYPE=INFRARED SPECTRUM\n##XUNITS=1/CM\n"

@@ -42,9 +42,10 @@ def _vm_bytes() -> int:
         return int(fh.read().split()[0]) * os.sysconf("SC_PAGE_SIZE")
 
 
-def _worker(conn, fmt: str, memory_mb: int) -> None:
+def _worker(conn, fmt: str, memory_mb: int, warm: list) -> None:
     warnings.simplefilter("ignore")
-    fuzzkit.run_one(b"x", fmt)  # import and warm the reader before the limit is set
+    for data in warm:  # import (pandas, lxml...) and warm the reader before the limits
+        fuzzkit.run_one(data, fmt)
     limit = _vm_bytes() + memory_mb * 2**20
     resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
     tracemalloc.start()
@@ -65,14 +66,14 @@ def _worker(conn, fmt: str, memory_mb: int) -> None:
 class Pool:
     """One worker process, restarted after a kill."""
 
-    def __init__(self, fmt: str, memory_mb: int):
-        self.fmt, self.memory_mb = fmt, memory_mb
+    def __init__(self, fmt: str, memory_mb: int, warm: list):
+        self.fmt, self.memory_mb, self.warm = fmt, memory_mb, warm
         self.ctx = mp.get_context("fork")
         self._start()
 
     def _start(self) -> None:
         self.conn, child = self.ctx.Pipe()
-        self.proc = self.ctx.Process(target=_worker, args=(child, self.fmt, self.memory_mb),
+        self.proc = self.ctx.Process(target=_worker, args=(child, self.fmt, self.memory_mb, self.warm),
                                      daemon=True)
         self.proc.start()
 
@@ -103,7 +104,7 @@ def campaign(family: str, seconds: float, seed: int, timeout: float, memory_mb: 
     fmt, seeds_fn = fuzzkit.FAMILIES[family]
     seeds = seeds_fn()
     rng = np.random.default_rng(seed)
-    pool = Pool(fmt, memory_mb)
+    pool = Pool(fmt, memory_mb, seeds)
     counts: collections.Counter = collections.Counter()
     examples: dict[str, str] = {}
     worst_t = worst_m = 0.0
