@@ -73,8 +73,8 @@ class Pool:
 
     def _start(self) -> None:
         self.conn, child = self.ctx.Pipe()
-        self.proc = self.ctx.Process(target=_worker, args=(child, self.fmt, self.memory_mb, self.warm),
-                                     daemon=True)
+        self.proc = self.ctx.Process(
+            target=_worker, args=(child, self.fmt, self.memory_mb, self.warm), daemon=True)
         self.proc.start()
 
     def run(self, data: bytes, timeout: float):
