@@ -134,6 +134,10 @@ def read_json(path: str | Path, what: str) -> Any:
         raise SessionError(f"{p}: cannot read the {what} ({exc.strerror})") from None
     except json.JSONDecodeError as exc:
         raise SessionError(f"{p}, line {exc.lineno}: not a JSON {what} ({exc.msg})") from None
+    except UnicodeDecodeError as exc:
+        raise SessionError(f"{p}: not a JSON {what} (byte {exc.start}: not UTF-8)") from None
+    except RecursionError:
+        raise SessionError(f"{p}: not a {what}: nested too deeply to read") from None
 
 
 def load_record(path: str | Path) -> dict[str, Any]:

@@ -49,6 +49,7 @@ from .evidence import Ranking, rank
 from .formula import Formula, parse_cage_formula
 from .plain import plain
 from .report import atomic_write_text, read_json
+from .session_schema import validate_session
 from .settings import Settings
 from .spectra import Spectrum, load_spectrum
 from .symmetry import fingerprint
@@ -457,8 +458,19 @@ class Session:
         }
 
     @classmethod
-    def from_dict(cls, d: Mapping[str, Any]) -> Session:
-        """Rebuild a session from :meth:`to_dict` output."""
+    def from_dict(cls, d: Mapping[str, Any], where: str = "session record") -> Session:
+        """Rebuild a session from :meth:`to_dict` output (checked by the session schema)."""
+        validate_session(d, where)
+        try:
+            return cls._from_checked(d)
+        except CageprintError:
+            raise
+        except (KeyError, TypeError, ValueError, AttributeError) as exc:
+            raise SessionError(f"{where}: unreadable session ({type(exc).__name__}: "
+                               f"{str(exc)[:120]})") from None
+
+    @classmethod
+    def _from_checked(cls, d: Mapping[str, Any]) -> Session:
         if d.get("format") != SESSION_FORMAT:
             raise SessionError(f"session record: expected format {SESSION_FORMAT!r}; got "
                                f"{d.get('format')!r}")
@@ -484,7 +496,7 @@ class Session:
     @classmethod
     def restore(cls, path: str | Path) -> Session:
         """Read a session written by :meth:`save`."""
-        return cls.from_dict(read_json(path, "session file"))
+        return cls.from_dict(read_json(path, "session file"), where=str(path))
 
     def __repr__(self) -> str:
         data = ", ".join(self.techniques_with_data()) or "no spectra"

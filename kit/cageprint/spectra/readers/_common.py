@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import hashlib
+import math
 import re
 import warnings
 import zlib
@@ -177,7 +178,7 @@ def check_physical_range(x: np.ndarray, technique: str, source: str, *, file_uni
     ...
     cageprint.errors.SpectrumFormatError: a.csv: x value -2.0 eV is -619.9 nm, outside ...
     """
-    lo, hi = PHYSICAL_X_RANGE[technique]
+    lo, hi = PHYSICAL_X_RANGE.get(technique, (-math.inf, math.inf))
     bad = (x < lo) | (x > hi)
     if not bad.any():
         return
