@@ -273,3 +273,23 @@ def test_panel_shows_the_threshold_the_session_used(session):
     assert panel.snr.value == 20.0 and "snr=20," in panel.table.value
     panel.snr.value = 50.0  # and the other way round
     assert session.settings("nmr").snr == 50.0
+
+
+@pytest.mark.parametrize("name", ["../../x", "/tmp/escape", "sub/x"])
+def test_board_export_name_cannot_escape_its_folder(session, tmp_path, name):
+    # issue 14: "the assignment board's export name can escape its folder (../../x, absolute
+    # paths)"; common practice, no source
+    out = tmp_path / "a" / "b" / "out"
+    board = AssignmentBoard(session, out_dir=out, name=name)
+    assert board.export() is None
+    assert "export name" in board.problem.message and "plain file name" in board.problem.message
+    assert not any(p.suffix in (".json", ".html") for p in tmp_path.rglob("*"))
+
+
+def test_missing_initial_file_names_the_file_not_a_trait_error(tmp_path):
+    # issue 14: "A missing notebook input file shows a widget TraitError, not the file"
+    s = Session()
+    loader = SpectrumLoader(s, folder=tmp_path, technique="ir", initial="fraction-Z-ir.jdx")
+    assert loader.problem.message == f"Could not read fraction-Z-ir.jdx in {tmp_path}: no such file"
+    gone = SpectrumLoader(s, folder=tmp_path / "nope", technique="ir", initial="a.jdx")
+    assert "a.jdx" in gone.problem.message and "the folder does not exist" in gone.problem.message

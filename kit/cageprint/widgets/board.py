@@ -11,6 +11,7 @@ import ipywidgets as w
 
 from .. import figures
 from ..evidence import Ranking, label
+from ..fileio import confined_path
 from ..session import Session
 from ..techniques import registry
 from . import _port
@@ -107,9 +108,9 @@ class AssignmentBoard:
 
     def export(self, _button=None) -> tuple[pathlib.Path, pathlib.Path] | None:
         """Write the assignment record (JSON) and the HTML report; say where."""
-        rec = self.out_dir / f"{self.name.value or 'assignment'}.json"
-        rep = rec.with_suffix(".html")
         try:
+            rec = confined_path(self.out_dir, self.name.value or "assignment", ".json")
+            rep = rec.with_suffix(".html")
             self.out_dir.mkdir(parents=True, exist_ok=True)
             _port.export(self.session, rec, rep)
         except Exception as exc:

@@ -74,8 +74,20 @@ class SpectrumLoader:
         parts = [w.HBox([self.file, self.upload, self.technique]), self.info, self.problem.widget]
         self.ui = w.VBox(parts + ([boxed(self.fig)] if plot else []))
         self.ui.add_class("cp-loader")
-        if initial:
+        if initial and initial in self.file.options:
             self.file.value = initial
+        elif initial:
+            self._initial_elsewhere(initial)
+
+    def _initial_elsewhere(self, initial: str) -> None:
+        """An initial file not in the list: read it if it exists, else say which and why."""
+        path = self.folder / initial
+        if path.is_file():
+            self.load(path, name=initial)
+            return
+        why = ("the folder does not exist" if not self.folder.is_dir() else
+               "no such file" + (" (it is a folder)" if path.is_dir() else ""))
+        self.problem.show(f"Could not read {initial} in {self.folder}: {why}")
 
     # -- actions -------------------------------------------------------------
     def load(self, source, name: str | None = None) -> bool:
