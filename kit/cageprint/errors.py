@@ -23,7 +23,6 @@ __all__ = [
     "LibraryError",
     "OutputError",
     "ReadLimitError",
-    "ReaderWarning",
 ]
 
 
@@ -73,7 +72,10 @@ class ReadLimitError(SpectrumFormatError):
 
 
 class ReaderWarning(UserWarning):
-    """A reader accepted a file by inferring something the file should have stated."""
+    """A reader accepted a file by inferring something the file should have stated.
+
+    A warning, not an error: it is kept out of ``__all__`` (the error family).
+    """
 
 
 class SpectrumError(CageprintError):

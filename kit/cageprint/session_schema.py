@@ -96,7 +96,7 @@ def _depth(value: Any) -> int:
     while stack:
         v, d = stack.pop()
         if isinstance(v, Mapping):
-            children = v.values()
+            children = list(v.values())
         elif isinstance(v, list):
             children = v
         else:

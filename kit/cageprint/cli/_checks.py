@@ -32,7 +32,7 @@ def shown(text: str) -> str:
         else str(text)
 
 
-def one_line(message: str) -> str:
+def one_line(message: object) -> str:
     """A message on one line, printable whatever bytes it holds."""
     return " ".join(shown(str(message)).split())
 
