@@ -16,8 +16,9 @@ __all__ = ["EXIT_OK", "EXIT_NOTHING", "EXIT_ERROR", "EXIT_STATUS_HELP", "check_t
            "check_output", "check_count", "one_line"]
 
 EXIT_OK, EXIT_NOTHING, EXIT_ERROR = 0, 1, 2
-EXIT_STATUS_HELP = ("exit status: 0 done; 1 ran but found nothing (no peaks, lines or species "
-                    "in a given spectrum); 2 bad input or arguments (one line on stderr)")
+EXIT_STATUS_HELP = ("exit status: 0 done; 1 ran but found nothing (no peaks, lines, species or "
+                    "envelopes in a given spectrum); 2 bad input or arguments (one line on "
+                    "stderr)")
 
 
 def shown(text: str) -> str:

@@ -68,11 +68,11 @@ def run(args) -> int:
     unexplained = [f"# unexplained envelope at m/z {u.mz:.3f} (height {u.relative_height:.3g} "
                    f"of the tallest; m/z {u.mz_lo:.1f}-{u.mz_hi:.1f}): {u.reason}"
                    for u in obs.unexplained]
-    if not rows:
+    if not rows and not unexplained:  # envelopes no species explains are a finding
         d = obs.diagnostics
-        print(f"cageprint mass: nothing found: no cage species in '{printable(args.file)}' "
-              f"({d['n_peaks']} peaks above snr={args.snr:g}, {len(unexplained)} unexplained "
-              "envelopes); lower --snr or widen --ppm",
+        print(f"cageprint mass: nothing found: no cage species and no isotope envelope in "
+              f"'{printable(args.file)}' ({d['n_peaks']} peaks above snr={args.snr:g}); lower "
+              "--snr or widen --ppm",
               file=sys.stderr)
         return EXIT_NOTHING
     if args.csv:
