@@ -49,6 +49,7 @@ def _worker(conn, fmt: str, memory_mb: int, warm: list) -> None:
     limit = _vm_bytes() + memory_mb * 2**20
     resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
     tracemalloc.start()
+    conn.send("ready")  # the warm-up is not charged to the first input's time limit
     while True:
         data = conn.recv()
         if data is None:
@@ -76,6 +77,8 @@ class Pool:
         self.proc = self.ctx.Process(
             target=_worker, args=(child, self.fmt, self.memory_mb, self.warm), daemon=True)
         self.proc.start()
+        if not (self.conn.poll(300) and self.conn.recv() == "ready"):
+            raise RuntimeError("the fuzz worker did not start")
 
     def run(self, data: bytes, timeout: float):
         self.conn.send(data)
