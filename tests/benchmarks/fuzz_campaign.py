@@ -11,8 +11,8 @@ violation (a spectrum breaking an invariant), foreign (any other exception),
 over-time, over-memory (MemoryError or a dead worker).  Done when (issue 14): 0 foreign,
 0 violation, 0 over-time, 0 over-memory.
 
-Run: ``python tests/benchmarks/fuzz_campaign.py --seconds 600`` (per family; default 20
-for ``make bench``); ``--family jcamp`` for one; ``--seed`` to vary the run.
+Run: ``python tests/benchmarks/fuzz_campaign.py --seconds 600`` (per family; default 20,
+a quick look); ``--family jcamp`` for one; ``--seed`` to vary the run.
 """
 
 from __future__ import annotations
