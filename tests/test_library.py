@@ -20,6 +20,7 @@ from cageprint.cage import count_isomers, iter_isomers  # noqa: E402
 from cageprint.cli import main  # noqa: E402
 from cageprint.errors import LibraryError  # noqa: E402
 from cageprint.library import (  # noqa: E402
+    PAIRS_MEMO,
     build_library,
     export_parquet,
     library_cages,
@@ -244,5 +245,41 @@ def test_chooser_reads_the_library(tmp_path):
     ch = CandidateChooser(Session(), "C50", ipr=False, library=path)
     assert len(ch.session.candidates) == 271 and len(ch.rows) == 271
     plain = CandidateChooser(Session(), "C50", ipr=False)
-    key = [(r["isomer"], r["lines"], r["ir"]) for r in plain.rows]
-    assert [(r["isomer"], r["lines"], r["ir"]) for r in ch.rows] == key
+    cols = ("isomer", "lines", "ir", "fused pentagons")
+    key = [tuple(r[k] for k in cols) for r in plain.rows]
+    assert [tuple(r[k] for k in cols) for r in ch.rows] == key
+    # the library's stored fused-pair counts reach the chooser without a cage graph
+    assert all(c.memo(PAIRS_MEMO, None) == r["fused pentagons"]
+               for c, r in zip(ch.session.candidates, ch.rows, strict=True))
+
+
+@pytest.mark.slow
+def test_all_isomer_numbers_for_ipr_cages(tmp_path):
+    # with all isomers, IPR cages keep their all-isomer number: C60 Ih is isomer 1812 of
+    # 1812 (Fowler & Manolopoulos, An Atlas of Fullerenes, 1995)
+    path = tmp_path / "c60.duckdb"
+    build_library("C60", ipr=False, path=path, workers=0, progress=False)
+    table = library_cages(60, ipr=False, path=path, build=False)
+    assert table["isomer"].tolist() == list(range(1, 1813))
+    ih = table[table["point_group"] == "Ih"]
+    assert ih["isomer"].tolist() == [1812] and ih["isomer_ipr"].tolist() == [1]
+    assert library_cages(60, path=path, build=False)["isomer"].tolist() == [1]
+
+
+def test_build_report_cpu_is_process_time(tmp_path, monkeypatch):
+    # cpu_seconds adds process CPU time of the tasks, not their wall time: a task that
+    # waits (here: sleeps) costs wall time but no CPU (common practice, no source)
+    from cageprint.library import compute
+
+    real = compute.cage_columns
+
+    def slow(cage):
+        time.sleep(0.1)
+        return real(cage)
+
+    monkeypatch.setattr(compute, "cage_columns", slow)
+    rep = build_library("C36", ipr=False, path=tmp_path / "cpu.duckdb", workers=0,
+                        progress=False)
+    assert rep.ranges[0].cages == 15  # C36 isomers (Fowler & Manolopoulos 1995)
+    assert rep.wall_seconds > 1.5
+    assert 0 < rep.cpu_seconds < rep.wall_seconds - 1.0

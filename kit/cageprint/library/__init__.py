@@ -18,6 +18,7 @@ from __future__ import annotations
 from .build import BuildReport, RangeReport, build_library, dask_client, parse_range
 from .pieces import Piece, plan_pieces
 from .query import (
+    PAIRS_MEMO,
     library_cages,
     library_candidates,
     library_energies,
@@ -30,6 +31,7 @@ from .store import CHARGES, default_path, export_parquet, open_library
 
 __all__ = [
     "CHARGES",
+    "PAIRS_MEMO",
     "BuildReport",
     "RangeReport",
     "Piece",

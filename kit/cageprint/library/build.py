@@ -57,7 +57,9 @@ class RangeReport:
 class BuildReport:
     """What a build did: per cage size, and the time it took.
 
-    ``cpu_seconds`` adds the CPU time of every task computed (on any worker).
+    ``cpu_seconds`` adds the CPU time (``time.process_time`` of the worker process
+    that ran it) of every task computed, summed over workers; ``wall_seconds`` is
+    the elapsed time of the whole build.
     """
 
     path: str
@@ -265,7 +267,7 @@ def build_library(sizes, *, ipr: bool = True, path=None, scheduler: str | None =
             write_piece(con, res.piece.n, scope, res.piece.index, piece_key=res.piece.key,
                         pieces_total=len(plan[0]), columns=res.columns, seconds=res.seconds)
             computed[res.piece.n] = computed.get(res.piece.n, 0) + 1
-            cpu += res.seconds
+            cpu += res.cpu_seconds
             if bar is not None:
                 bar.update(1)
 

@@ -28,6 +28,7 @@ __all__ = [
     "library_energies",
     "library_info",
     "library_candidates",
+    "PAIRS_MEMO",
 ]
 
 #: columns of a query result, in order
@@ -36,6 +37,9 @@ SHOWN_COLUMNS = (
     "nmr_pattern", "nmr_lines", "ir_active", "raman_active", "gap_beta", "pentagon_pairs",
     "hexagon_index", "ipsi",
 )
+
+#: key of a candidate's memo holding its fused-pentagon pair count (filled from the library)
+PAIRS_MEMO = "pentagon_pairs"
 
 _TERM = re.compile(r"(\d+)\s*[x×*]\s*(\d+)")
 
@@ -157,7 +161,10 @@ def library_cages(n: int, ipr: bool = True, *, path=None, build: bool = True,
                                f"in it; build it with `cageprint library build C{n}"
                                f"{'' if ipr else ' --all'}`")
         build_library([int(n)], ipr=ipr, path=p, workers=workers, progress=progress)
-    return query_cages(p, sizes=[int(n)], ipr=True if ipr else None)
+    table = query_cages(p, sizes=[int(n)], ipr=True if ipr else None)
+    if not ipr:  # all isomers: every cage by its all-isomer number (IPR ones too)
+        table["isomer"] = table["isomer_all"]
+    return table
 
 
 def library_indices(n: int, charge: int = 0, path=None,
@@ -269,10 +276,13 @@ def library_candidates(formula: str, ipr: bool = True, *, path=None, build: bool
     out = []
     for r in table.itertuples(index=False):
         gap = float(r.gap_beta) if q == 0 else (None if gaps is None else float(gaps[r.spiral]))
-        out.append(Candidate(
+        c = Candidate(
             formula=f.text, n=int(r.n), isomer=int(r.isomer), point_group=str(r.point_group),
             nmr_sizes=_sizes(r.nmr_pattern), ir_count=int(r.ir_active),
             raman_count=int(r.raman_active), gap_beta=gap, cage_charge=q,
             spiral=tuple(int(v) for v in r.spiral.split()),
-        ))
+        )
+        pairs = int(r.pentagon_pairs)
+        c.memo(PAIRS_MEMO, lambda _c, k=pairs: k)  # stored count: readers need no cage graph
+        out.append(c)
     return tuple(out)

@@ -10,7 +10,7 @@ from .. import figures
 from ..cage import Cage
 from ..candidate import Candidate
 from ..errors import CageprintError
-from ..library import library_candidates
+from ..library import PAIRS_MEMO, library_candidates
 from ..session import Session
 from ..symmetry import character_table
 from ._common import Problem
@@ -31,6 +31,11 @@ def _group_order(pg: str) -> int:
         return int(character_table(pg).order)
     except CageprintError:  # an unknown label sorts last
         return 0
+
+
+def _fused_pairs(c: Candidate) -> int:
+    pairs = Cage.from_spiral(c.n, c.spiral).fused_pentagon_pairs  # a count
+    return int(pairs) if not hasattr(pairs, "__len__") else len(pairs)
 
 
 class CandidateChooser:
@@ -72,14 +77,15 @@ class CandidateChooser:
         self.table = w.HTML()
         self.table.add_class("cp-candidates")
         self.rows: list[dict] = []
-        self._fused: dict[int, int] = {}
+        self.building = w.Output()  # the library build's progress bar, while it runs
+        self.building.add_class("cp-library-progress")
         self.formula.observe(self._regenerate, names=["value"])
         self.ipr.observe(self._regenerate, names=["value"])
         for c in (self.point_group, self.fused, self.sort, self.pick):
             c.observe(self._redraw, names=["value"])
         self.ui = w.VBox([w.HBox([self.formula, self.ipr]),
                           w.HBox([self.point_group, self.fused, self.sort]),
-                          self.problem.widget, self.pick, self.table])
+                          self.problem.widget, self.building, self.pick, self.table])
         self.ui.add_class("cp-chooser")
         if self.formula.value:
             if session.candidates and session.formula == self.formula.value \
@@ -103,7 +109,11 @@ class CandidateChooser:
                 self.session.set_candidates(ipr=self.ipr.value)
             else:
                 path = None if self.library is True else self.library
-                self.session.set_candidates(library_candidates(text, self.ipr.value, path=path))
+                with self.building:  # a missing size is built here, its progress bar shown
+                    self.building.clear_output()
+                    cands = library_candidates(text, self.ipr.value, path=path)
+                    self.building.clear_output()
+                self.session.set_candidates(cands)
         except Exception as exc:  # shown in the widget, candidates left as they were
             self.problem.show(exc)
             return
@@ -113,13 +123,10 @@ class CandidateChooser:
     def _fused_count(self, c: Candidate) -> int:
         if self.session.ipr:
             return 0
-        if c.isomer not in self._fused:
-            pairs = Cage.from_spiral(c.n, c.spiral).fused_pentagon_pairs  # a count
-            self._fused[c.isomer] = int(pairs) if not hasattr(pairs, "__len__") else len(pairs)
-        return self._fused[c.isomer]
+        # library candidates carry the stored count in their memo: no cage graph is built
+        return int(c.memo(PAIRS_MEMO, _fused_pairs))
 
     def _rebuild_rows(self) -> None:
-        self._fused = {}
         cands = self.session.candidates
         self.rows = [{
             "isomer": c.isomer, "point group": c.point_group, "order": _group_order(c.point_group),
