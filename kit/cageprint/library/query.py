@@ -74,6 +74,16 @@ def _pattern_atoms(pattern: str) -> int:
     return sum(int(a) * int(b) for a, b in _TERM.findall(pattern))
 
 
+class _Stored:
+    """A memo filler that returns a stored value."""
+
+    def __init__(self, value: Any) -> None:
+        self.value = value
+
+    def __call__(self, _candidate: Candidate) -> Any:
+        return self.value
+
+
 def _connect(path):
     return open_library(path, read_only=True)
 
@@ -282,7 +292,6 @@ def library_candidates(formula: str, ipr: bool = True, *, path=None, build: bool
             raman_count=int(r.raman_active), gap_beta=gap, cage_charge=q,
             spiral=tuple(int(v) for v in r.spiral.split()),
         )
-        pairs = int(r.pentagon_pairs)
-        c.memo(PAIRS_MEMO, lambda _c, k=pairs: k)  # stored count: readers need no cage graph
+        c.memo(PAIRS_MEMO, _Stored(int(r.pentagon_pairs)))  # readers need no cage graph
         out.append(c)
     return tuple(out)
