@@ -9,6 +9,7 @@ import pytest
 
 from cageprint.errors import EvidenceError
 from cageprint.evidence import (
+    VERDICTS,
     Candidate,
     Ranking,
     TechniqueVerdict,
@@ -43,8 +44,12 @@ def test_ties_within_tolerance_but_different_fingerprints_say_so():
     a, b = cand(1), cand(2, sizes=(6,) * 13)
     r = rank([a, b], {"nmr": [v("nmr", -1.0), v("nmr", -1.0 + 1e-9)]})
     assert [row.rank for row in r] == [1, 1]
-    assert r.rows[0].tie_reason == "tied with isomer 2: overall scores equal within 1e-06"
-    r = rank([a, b], {"nmr": [v("nmr", -1.0), v("nmr", -1.1)]})
+    assert r.rows[0].tie_reason == ("tied with isomer 2: not separable with this evidence "
+                                    "(totals within 0.2)")
+    # issue 10: a stated margin (TIE_TOL nats), not float equality, decides separability
+    r = rank([a, b], {"nmr": [v("nmr", -1.0), v("nmr", -1.15)]})
+    assert [row.rank for row in r] == [1, 1]
+    r = rank([a, b], {"nmr": [v("nmr", -1.0), v("nmr", -1.3)]})
     assert [row.rank for row in r] == [1, 2]
 
 
@@ -167,3 +172,36 @@ def test_candidate_from_fingerprint_shape():
     assert c.transitions_beta == (0.9, 1.0)
     assert c.label == "C60 isomer 1 (Ih)"
     assert no_data("ir").reasons == ("no ir data.",)
+
+
+def test_rank_score_share_and_word_tell_one_story():
+    # issue 10: over many random verdict sets, rows in rank order never improve in score,
+    # share or verdict word, shares of kept rows sum to 1, and no ruled-out row outranks
+    # or outscores a kept one (common practice, no source: a posterior over the candidates)
+    rng = np.random.default_rng(10)
+    order = {w: i for i, w in enumerate(VERDICTS)}
+    for trial in range(300):
+        k = int(rng.integers(1, 9))
+        cands = [cand(i + 1, sizes=(60 // (1 + i % 3),) * (1 + i % 3)) for i in range(k)]
+        vs = {}
+        for t in ("nmr", "ir", "mass"):
+            scores = -np.abs(rng.normal(0, 3, k)).round(int(rng.integers(0, 3)))
+            words = rng.choice(["consistent", "possible", "unlikely", "ruled out"], k,
+                               p=[0.4, 0.3, 0.2, 0.1])
+            vs[t] = [v(t, float(s), str(w)) for s, w in zip(scores, words, strict=True)]
+        r = rank(cands, vs)
+        rows = r.rows
+        for a, b in zip(rows, rows[1:], strict=False):
+            assert a.rank <= b.rank
+            assert a.score >= b.score - 1e-6, trial
+            assert a.share >= b.share - 1e-12 or a.rank == b.rank, trial
+            assert order[a.verdict] <= order[b.verdict], trial
+            if a.rank == b.rank:
+                assert a.verdict == b.verdict
+        kept = [x for x in rows if not x.ruled_out]
+        out = [x for x in rows if x.ruled_out]
+        if kept:
+            assert abs(sum(x.share for x in kept) - 1.0) < 1e-9
+        for o in out:
+            assert o.share == 0.0
+            assert all(o.rank > x.rank and o.score <= x.score for x in kept)

@@ -4,11 +4,23 @@ Every technique module returns, for one candidate and one observation, a
 :class:`TechniqueVerdict`: a log-likelihood-like ``score`` (0 is a perfect
 fit, more negative is worse), a ``verdict`` word, and the reasons in plain
 sentences.  :func:`rank` adds the scores with visible, settable weights and
-orders the candidates.  Candidates the evidence cannot tell apart (their
-scores agree within :data:`TIE_TOL`) share a rank; ties are never broken by
-list order or isomer number, and the table says why two candidates tie.
-Candidates a technique rules out stay in the table, marked as ruled out,
-after every candidate that is not.
+orders the candidates.
+
+Every figure shown for a row follows from the weighted total ``S`` (a log-likelihood, in
+nats) so that rank, score, posterior share and verdict word never tell different stories:
+
+- **share**: the posterior share ``exp(S_i) / sum_j exp(S_j)`` over the candidates no
+  weighted technique rules out (flat prior over the listed candidates); ruled-out rows
+  have share 0;
+- **rank**: by ``S``; candidates within :data:`TIE_TOL` nats of the best of their group
+  share a rank and are called "not separable with this evidence" (a likelihood ratio
+  below ``exp(TIE_TOL)``); ties are never broken by list order or isomer number;
+- **verdict word**: from the likelihood ratio to the best row (:data:`WORD_LIMITS`),
+  never better than the row's own worst weighted technique word, nor than the word of
+  any row above it (so a poor fit is never called "consistent", and reading down the
+  table the words only get worse);
+- candidates a technique rules out stay in the table, marked "ruled out", after every
+  kept candidate, and their shown score is never above a kept one's.
 """
 
 from __future__ import annotations
@@ -29,6 +41,7 @@ from .verdict import RULED_OUT_SCORE, VERDICTS, TechniqueVerdict, no_data
 __all__ = [
     "VERDICTS",
     "TIE_TOL",
+    "WORD_LIMITS",
     "RULED_OUT_SCORE",
     "TechniqueVerdict",
     "Candidate",
@@ -39,8 +52,15 @@ __all__ = [
     "verdicts_by_signature",
 ]
 
-#: two overall scores closer than this (absolute, in score units) are a tie
-TIE_TOL = 1e-6
+#: candidates whose weighted totals differ by less than this (nats; a likelihood ratio
+#: below e**0.2 = 1.22) share a rank: "not separable with this evidence"
+TIE_TOL = 0.2
+
+#: verdict word from the log-likelihood ratio to the best kept row: within 1.1 nats
+#: (ratio 3) "consistent", within 3.4 nats (ratio 30) "possible", else "unlikely"
+#: (common practice, no source: Jeffreys' evidence bands, ratios 3 and 30)
+WORD_LIMITS: tuple[tuple[float, str], ...] = ((math.log(3.0), "consistent"),
+                                              (math.log(30.0), "possible"))
 
 _ORDER = {v: i for i, v in enumerate(VERDICTS)}  # verdict word -> badness
 
@@ -55,9 +75,11 @@ class RankedRow:
         Shared by candidates the evidence cannot tell apart ("1, 1, 3").
     candidate : Candidate
     score : float
-        Weighted sum of the technique scores.
+        Weighted sum of the technique scores (for a ruled-out row, never above the
+        lowest kept row's).
     verdict : str
-        The worst weighted technique verdict ("ruled out" if any rules it out).
+        From the likelihood ratio to the best row (:data:`WORD_LIMITS`), "ruled out"
+        if a weighted technique rules it out.
     verdicts : mapping technique -> TechniqueVerdict
         Every registered technique's verdict ("no data" where none).
     tied_with : tuple of int
@@ -78,6 +100,7 @@ class RankedRow:
     tied_with: tuple[int, ...] = ()
     tie_reason: str = ""
     reasons: tuple[str, ...] = ()
+    share: float = 0.0
 
     @property
     def ruled_out(self) -> bool:
@@ -94,6 +117,7 @@ class RankedRow:
         known = {f.name for f in fields(cls)}
         kw = {k: v for k, v in d.items() if k in known}
         kw["rank"], kw["score"] = int(d["rank"]), float(d["score"])
+        kw["share"] = float(d.get("share", 0.0))
         kw["candidate"] = Candidate.from_dict(d["candidate"])
         kw["verdicts"] = MappingProxyType(
             {t: TechniqueVerdict.from_dict(v) for t, v in d["verdicts"].items()})
@@ -144,7 +168,7 @@ class Ranking:
             d: dict[str, Any] = {
                 "rank": r.rank, "formula": c.formula, "isomer": c.isomer,
                 "point_group": c.point_group, "score": round(r.score, 4),
-                "verdict": r.verdict, "nmr_pattern": c.pattern,
+                "share": round(r.share, 4), "verdict": r.verdict, "nmr_pattern": c.pattern,
             }
             for t in self.techniques:
                 v = r.verdicts[t]
@@ -246,7 +270,30 @@ def _tie_reason(group: list[_Scored], cands: Sequence[Candidate], weighted: list
     same = [t for t in techs if len({t.signature_of(cands[s.index]) for s in group}) == 1]
     if len(same) == len(techs):
         return ", ".join(t.tie_note(cands[group[0].index]) for t in same)
-    return f"overall scores equal within {tie_tol:g}"
+    return f"not separable with this evidence (totals within {tie_tol:g})"
+
+
+def _word(gap: float, floor: str) -> str:
+    """The word of a kept row ``gap`` nats below the best, never better than ``floor``."""
+    word = "unlikely"
+    for limit, w in WORD_LIMITS:
+        if gap <= limit:
+            word = w
+            break
+    return word if _ORDER[word] >= _ORDER[floor] else floor
+
+
+def _groups(scored: list[_Scored], tie_tol: float) -> list[list[_Scored]]:
+    """Consecutive rows (sorted best first) within ``tie_tol`` of their group's best."""
+    groups: list[list[_Scored]] = []
+    for s in scored:
+        head = groups[-1][0] if groups else None
+        if head is not None and head.out == s.out and (
+                head.total - s.total < tie_tol or head.total == s.total):
+            groups[-1].append(s)
+        else:
+            groups.append([s])
+    return groups
 
 
 def rank(
@@ -270,7 +317,7 @@ def rank(
         default.  A weight of 0 keeps a technique visible but out of the
         score and out of the "ruled out" decision.
     tie_tol : float
-        Overall scores within this distance of their neighbour share a rank.
+        Candidates less than this (nats) below the best of their group share a rank.
 
     Returns
     -------
@@ -311,17 +358,26 @@ def rank(
     # order: not ruled out first, then by score (best first); identical keys keep
     # their relative order only for display - they share the rank
     scored.sort(key=lambda s: (s.out, -s.total))
-    groups: list[list[_Scored]] = []
-    for s in scored:
-        last = groups[-1][-1] if groups else None
-        if last is not None and last.out == s.out and abs(last.total - s.total) <= tie_tol:
-            groups[-1].append(s)
-        else:
-            groups.append([s])
+    kept = [s.total for s in scored if not s.out]
+    best = kept[0] if kept else 0.0
+    norm = math.fsum(math.exp(t - best) for t in kept) if kept else 1.0
+    floor = "consistent"  # the word of the row above: a lower row never sounds better
+    lowest_kept = kept[-1] if kept else math.inf
+    groups = _groups(scored, tie_tol)
     rows: list[RankedRow] = []
     weighted = [t for t in with_data if w[t] > 0]
     for g in groups:
-        g.sort(key=lambda s: (cands[s.index].formula, cands[s.index].isomer))  # display only
+        if not labels:
+            row_word = "no data"
+        elif g[0].out:
+            row_word = "ruled out"
+        else:
+            for s in g:
+                floor = s.worst if _ORDER.get(s.worst, 0) > _ORDER[floor] else floor
+            row_word = floor = _word(best - g[0].total, floor)
+        # display order inside a shared rank: best total first, then formula and isomer
+        g.sort(key=lambda s: (-round(s.total, 6), cands[s.index].formula,
+                              cands[s.index].isomer))
         why = _tie_reason(g, cands, weighted, tie_tol)
         members = [cands[s.index].isomer for s in g]
         position = len(rows) + 1
@@ -335,10 +391,11 @@ def rank(
                 word = "isomer" if len(others) == 1 else "isomers"
                 tie_reason = f"tied with {word} {shown}: {why}"
             rows.append(RankedRow(
-                rank=position, candidate=cands[s.index], score=s.total,
-                verdict="ruled out" if s.out else s.worst,
+                rank=position, candidate=cands[s.index],
+                score=min(s.total, lowest_kept) if s.out else s.total, verdict=row_word,
                 verdicts={t: per[t][s.index] for t in order},
                 tied_with=others, tie_reason=tie_reason, reasons=s.reasons,
+                share=0.0 if s.out else math.exp(s.total - best) / norm,
             ))
     return Ranking(rows=tuple(rows), weights=MappingProxyType(w), techniques=order,
                    with_data=with_data, tie_tol=tie_tol)

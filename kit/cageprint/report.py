@@ -353,8 +353,10 @@ def render_html(record: Mapping[str, Any], *, session: Any = None,
     out.append("</table>")
     w = ", ".join(f"{_e(label(t))} {ranking.weights.get(t, 0):g}" for t in ranking.techniques)
     out.append(f"<p class='note'>Weights: {_e(w)}. Scores are log-likelihood-like "
-               "(0 = perfect fit, more negative = worse); candidates whose overall scores "
-               f"agree within {ranking.tie_tol:g} share a rank.</p>")
+               "(0 = perfect fit, more negative = worse); the share is the posterior share of "
+               "each candidate among the kept ones; candidates whose totals differ by less "
+               f"than {ranking.tie_tol:g} are not separable with this evidence and share a "
+               "rank.</p>")
     th = record.get("thresholds", {})
     set_th = {t: v for t, v in th.items() if v}
     if set_th:

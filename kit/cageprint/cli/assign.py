@@ -117,13 +117,14 @@ def _print_table(session: Session, top: int, out: Any) -> None:
     ranking = session.ranking
     techs = ranking.techniques
     short = {t: registry.get(t).short for t in techs}
-    head = ["rank", "formula", "isomer", "pg", "score", "verdict"] + [short[t] for t in techs]
+    head = ["rank", "formula", "isomer", "pg", "score", "verdict", "share"] + [
+        short[t] for t in techs]
     rows = []
     for r in ranking.rows[:top]:
         c = r.candidate
         cells = [str(r.rank) + ("=" if r.tied_with else ""), c.formula, str(c.isomer),
                  c.point_group, f"{r.score:.2f}" if abs(r.score) >= 0.005 else "0.00",
-                 r.verdict]
+                 r.verdict, f"{r.share:.1%}"]
         for t in techs:
             v = r.verdicts[t]
             cells.append("-" if v.verdict == "no data" else v.verdict)

@@ -24,7 +24,8 @@ def ranking_rows(ranking: Ranking, limit: int | None = None) -> list[dict[str, A
     for r in ranking.rows[:limit]:
         c = r.candidate
         d = {"key": c.isomer, "rank": r.rank, "candidate": f"{c.formula} {c.isomer}",
-             "point group": c.point_group, "score": round(r.score, 2), "verdict": r.verdict}
+             "point group": c.point_group, "score": round(r.score, 2), "share": f"{r.share:.1%}",
+             "verdict": r.verdict}
         for t in ranking.techniques:
             v = r.verdicts[t]
             d[label(t)] = v.verdict
