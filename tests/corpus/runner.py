@@ -1,0 +1,135 @@
+"""Run corpus cases through the kit's public path and score the outcome against the truth.
+
+Used by ``tests/benchmarks/bench_accuracy.py`` (the whole corpus, printed as a table) and
+``tests/test_accuracy_slice.py`` (a small seeded slice).
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Iterator
+from dataclasses import dataclass
+
+import numpy as np
+
+from cageprint import Session
+from cageprint.api import candidates as make_candidates
+
+from . import nmr13c
+
+#: IPR formulas and how often each is drawn (the larger lists are the hard cases)
+IPR_FORMULAS = ("C60", "C70", "C76", "C78", "C80", "C82", "C84", "C86", "C88", "C90",
+                "C92", "C94", "C96", "C98", "C100")
+#: non-IPR endohedral formulas (all isomers are candidates)
+NONIPR_FORMULAS = ("Sc2@C66", "Sc3N@C68")
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """How one case came out."""
+
+    seed: int
+    truth: nmr13c.Truth
+    in_first: bool            # the (major) true isomer is in the first-rank group
+    first_size: int
+    first_same_pattern: bool  # every first-rank member has one pattern
+    ruled_out: bool           # a true isomer (major or minor) was ruled out
+    partner_named: bool       # mixtures: the minor isomer's pattern is named as partner
+    seconds: float
+
+
+_POOLS: dict[tuple[str, bool], list] = {}
+
+
+def pool(formula: str, ipr: bool) -> list:
+    """Candidates of a formula (built once per process)."""
+    key = (formula, ipr)
+    if key not in _POOLS:
+        _POOLS[key] = make_candidates(formula, ipr=ipr)
+    return _POOLS[key]
+
+
+def true_pool(formula: str, ipr: bool) -> list:
+    """Isomers a true fraction is drawn from: any IPR isomer; for non-IPR endohedral
+    formulas, cages of symmetry order >= 4 (isolated endohedral cages are symmetric)."""
+    cands = pool(formula, ipr)
+    if ipr:
+        return cands
+    low = {"C1", "Ci", "Cs", "C2"}
+    return [c for c in cands if c.point_group not in low]
+
+
+def case_spec(seed: int) -> tuple[str, bool, bool]:
+    """(formula, ipr, mixture) of case ``seed``: 70 % IPR, 30 % non-IPR; 35 % mixtures
+    (IPR formulas with at least two patterns only)."""
+    rng = np.random.default_rng([seed, 1])
+    if rng.random() < 0.3:
+        return str(rng.choice(NONIPR_FORMULAS)), False, False
+    formula = str(rng.choice(IPR_FORMULAS))
+    mixture = rng.random() < 0.35 and len({c.pattern for c in pool(formula, True)}) > 1
+    return formula, True, mixture
+
+
+def _partner_named(row, truth: nmr13c.Truth) -> bool:
+    if len(truth.isomers) < 2:
+        return True
+    v = row.verdicts.get("nmr")
+    second = (v.details.get("second_component") or {}) if v is not None else {}
+    if second.get("pattern") == truth.patterns[1]:
+        return True
+    partner = getattr(row, "partner", None)
+    return partner is not None and getattr(partner, "isomer", partner) == truth.isomers[1]
+
+
+def run_case(seed: int, settings: dict | None = None) -> Outcome:
+    formula, ipr, mixture = case_spec(seed)
+    rng = np.random.default_rng([seed, 2])
+    text, truth = nmr13c.make_case(rng, formula, ipr, true_pool(formula, ipr), mixture=mixture)
+    t0 = time.perf_counter()
+    s = Session(formula)
+    s.set_candidates(pool(formula, ipr))
+    s.set_threshold("nmr", "solvent", truth.solvent_declared)
+    for name, value in (settings or {}).items():
+        s.set_threshold("nmr", name, value)
+    s.load("nmr", text, name=f"corpus-{seed}.csv")
+    ranking = s.ranking
+    dt = time.perf_counter() - t0
+    first = ranking.top()
+    members = {r.candidate.isomer for r in first}
+    major_row = ranking.row(truth.isomers[0])
+    out = any(ranking.row(i).ruled_out for i in truth.isomers)
+    return Outcome(
+        seed=seed, truth=truth, in_first=truth.isomers[0] in members, first_size=len(first),
+        first_same_pattern=len({r.candidate.pattern for r in first}) <= 1,
+        ruled_out=out, partner_named=_partner_named(major_row, truth), seconds=dt)
+
+
+def run(seeds: range, settings: dict | None = None) -> Iterator[Outcome]:
+    for seed in seeds:
+        yield run_case(seed, settings)
+
+
+def summary(outcomes: list[Outcome]) -> dict[str, dict[str, float]]:
+    """Figures per group ("single IPR", "single non-IPR", "mixtures", "all")."""
+    groups = {
+        "single IPR": [o for o in outcomes if len(o.truth.isomers) == 1 and o.truth.ipr],
+        "single non-IPR": [o for o in outcomes if len(o.truth.isomers) == 1 and not o.truth.ipr],
+        "mixtures": [o for o in outcomes if len(o.truth.isomers) == 2],
+        "all": outcomes,
+    }
+    out = {}
+    for name, g in groups.items():
+        if not g:
+            continue
+        mix20 = [o for o in g if len(o.truth.isomers) == 2 and o.truth.shares[1] >= 0.2]
+        out[name] = {
+            "cases": len(g),
+            "true in first group": float(np.mean([o.in_first for o in g])),
+            "first group one pattern": float(np.mean([o.first_same_pattern for o in g])),
+            "true ruled out": float(np.mean([o.ruled_out for o in g])),
+            "partner named (minor >= 20 %)": (float(np.mean([o.partner_named for o in mix20]))
+                                              if mix20 else float("nan")),
+            "mean first group size": float(np.mean([o.first_size for o in g])),
+            "median s/case": float(np.median([o.seconds for o in g])),
+        }
+    return out
