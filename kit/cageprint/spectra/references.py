@@ -31,6 +31,8 @@ __all__ = [
     "ReferenceMarks",
     "solvent_names",
     "reference_lines",
+    "multiplet_lines",
+    "COUPLINGS",
     "rereference",
     "mark_reference_peaks",
     "mark_ir_artefacts",
@@ -78,6 +80,10 @@ _TABLE = (
                                             "dichlorobenzene", "c6d4cl2"),
                  ((132.39, "C-Cl"), (130.05, "CD"), (127.19, "CD")),
                  "from memory (commonly tabulated 1,2-dichlorobenzene-d4 values; check locally)"),
+    # shift: Fulmer et al. 2010 (Table 2, 1,1,2,2-tetrachloroethane-d2, 73.78 ppm)
+    SolventLines("1,1,2,2-tetrachloroethane-d2", ("tetrachloroethane-d2", "tce-d2",
+                                                  "c2d2cl4", "tetrachloroethane"),
+                 ((73.78, "CDCl2"),), _FULMER),
     # CS2 has no deuterium lock; it is run with a lock solvent (below)
     SolventLines("CS2", ("carbon disulfide", "cs2"),
                  ((192.8, "CS2"),), "from memory (carbon disulfide 13C, about 192.8 ppm)"),
@@ -86,6 +92,26 @@ _TABLE = (
     SolventLines("TMS", ("tetramethylsilane", "tms"),
                  ((0.0, "Si(CH3)4"),), "R. K. Harris et al., Pure Appl. Chem. 73, 1795 (2001)"),
 )
+
+#: (solvent, carbon) -> (number of lines, J(C,D) in Hz) of the deuterated carbons, which
+#: show as 1:1:1 triplets (CD), 1:2:3:2:1 quintets (CD2) and 1:3:6:7:6:3:1 septets (CD3);
+#: carbons not listed are singlets.  Multiplicities follow from spin-1 deuterium (2nI + 1
+#: lines); the J values are from memory (commonly quoted one-bond 13C-2H couplings, about
+#: 1/6.5 of the 13C-1H ones; check locally): CDCl3 32.0, C6D6 24.3, CD2Cl2 27.2,
+#: acetone-d6 CD3 19.4, toluene-d8 aromatic CD 24 and CD3 19.1, 1,2-dichlorobenzene-d4
+#: CD 25, 1,1,2,2-tetrachloroethane-d2 CDCl2 about 29 Hz.
+COUPLINGS: Mapping[tuple[str, str], tuple[int, float]] = MappingProxyType({
+    ("CDCl3", "CDCl3"): (3, 32.0),
+    ("C6D6", "C6D6"): (3, 24.3),
+    ("toluene-d8", "CD ortho"): (3, 24.0),
+    ("toluene-d8", "CD meta"): (3, 24.0),
+    ("toluene-d8", "CD para"): (3, 24.3),
+    ("toluene-d8", "CD3"): (7, 19.1),
+    ("CD2Cl2", "CD2Cl2"): (5, 27.2),
+    ("acetone-d6", "CD3"): (7, 19.4),
+    ("1,2-dichlorobenzene-d4", "CD"): (3, 25.0),
+    ("1,1,2,2-tetrachloroethane-d2", "CDCl2"): (3, 29.0),
+})
 
 #: solvent name -> SolventLines (names and aliases are matched case-insensitively)
 SOLVENT_LINES: Mapping[str, SolventLines] = MappingProxyType({s.name: s for s in _TABLE})
@@ -141,6 +167,41 @@ def reference_lines(solvent: str) -> list[tuple[float, str, str]]:
     [137.48, 128.87, 127.96, 125.13, 20.43]
     """
     return [(ppm, carbon, s.name) for s in _solvents(solvent) for ppm, carbon in s.lines]
+
+
+def multiplet_lines(solvent: str, observe_mhz: float | None
+                    ) -> list[tuple[float, float, str]]:
+    """Every line of a solvent's 13C multiplets: (ppm, relative intensity, label).
+
+    Deuterated carbons split into 2nI + 1 lines spaced by J(C,D) (:data:`COUPLINGS`); at
+    ``observe_mhz`` the spacing in ppm is J / MHz.  Without a frequency the lines of the
+    lowest common field (75 MHz) are given, which spans the widest range.
+
+    Examples
+    --------
+    >>> [(round(p, 3), w) for p, w, _ in multiplet_lines("C6D6", 125.0)]
+    [(127.866, 1.0), (128.06, 1.0), (128.254, 1.0)]
+    >>> len(multiplet_lines("acetone-d6", 150.0))   # C=O singlet + CD3 septet
+    8
+    """
+    mhz = float(observe_mhz) if observe_mhz else 75.0
+    out: list[tuple[float, float, str]] = []
+    for s in _solvents(solvent):
+        for ppm, carbon in s.lines:
+            n, j = COUPLINGS.get((s.name, carbon), (1, 0.0))
+            weights = _pascal_spin1(n)
+            for k, w in enumerate(weights):
+                off = (k - (n - 1) / 2) * j / mhz
+                out.append((ppm + off, w / max(weights), f"{s.name} {carbon}"))
+    return out
+
+
+def _pascal_spin1(n: int) -> list[float]:
+    """Relative line intensities of coupling to spin-1 nuclei giving ``n`` lines."""
+    w = [1.0]
+    for _ in range((n - 1) // 2):
+        w = [sum(w[i - k] for k in range(3) if 0 <= i - k < len(w)) for i in range(len(w) + 2)]
+    return w
 
 
 def rereference(

@@ -204,3 +204,25 @@ def _partner_list(partners) -> list[tuple[tuple[int, ...], str]]:
         if sizes and sizes not in out:
             out[sizes] = label
     return list(out.items())
+
+
+def labeling_cost(sizes: tuple[int, ...]) -> float:
+    """Occam term of a pattern: ln of the number of distinct orders of its orbit sizes.
+
+    Which observed line belongs to which kind of orbit is itself fitted to the data; with
+    shifts unknown, every order of the orbits along the axis is equally likely a priori, so
+    one labelling has prior probability 1 / (n! / prod n_v!).  A pattern with one orbit size
+    pays nothing; one with many small orbits beside big ones pays for the freedom to explain
+    weak lines as small orbits (common practice, no source: the multinomial count).
+
+    Examples
+    --------
+    >>> labeling_cost((4,) * 19)
+    0.0
+    >>> round(labeling_cost((10, 10, 10, 20, 20)), 3)   # 5! / (3! 2!) = 10
+    2.303
+    """
+    counts: dict[int, int] = {}
+    for v in sizes:
+        counts[v] = counts.get(v, 0) + 1
+    return math.lgamma(len(sizes) + 1) - sum(math.lgamma(c + 1) for c in counts.values())

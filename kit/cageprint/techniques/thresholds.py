@@ -86,6 +86,9 @@ class NmrSettings(Settings):
                                            help="half-width of each line's integration window")
     use_intensities: bool = setting(True, kind="bool",
                                     help="use line integrals (false: line count only)")
+    keep_unlisted_multiplets: bool = setting(False, kind="bool",
+                                             help="count 1:1:1 C-D triplets no declared "
+                                             "solvent explains as cage lines")
     integral_tol: float = setting(nmr.NMR_INTEGRAL_TOL, stage="compare", low=1e-3, high=5.0,
                                   help="relative integral error of one standard deviation")
     max_merge: int = setting(nmr.NMR_MAX_MERGE, stage="compare", kind="int", low=1, high=6,
