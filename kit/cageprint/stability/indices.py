@@ -243,10 +243,14 @@ def _ipsi(faces, pent: np.ndarray, vectors: np.ndarray, n: int) -> float:
     return float(np.sum(1.0 / np.maximum(dist, 1e-6)))
 
 
-def _huckel(lam: np.ndarray, n_electrons: int) -> tuple[float, float, float, str]:
+def _levels(lam: np.ndarray) -> tuple[list[float], list[int]]:
     levels = levels_from_eigenvalues(lam)
-    degs = [b - a for _, a, b in levels]
-    energies = [e for e, _, _ in levels]
+    return [e for e, _, _ in levels], [b - a for _, a, b in levels]
+
+
+def _huckel(levels: tuple[list[float], list[int]],
+            n_electrons: int) -> tuple[float, float, float, str]:
+    energies, degs = levels
     occ = fill_levels(degs, n_electrons)
     homo, lumo = frontier(degs, occ)
     pi = float(sum(e * o for e, o in zip(energies, occ, strict=True)))
@@ -302,7 +306,8 @@ def stability_indices_at(cage, charges) -> list[StabilityIndices]:
     faces = cage.faces
     pairs, triples, pk, hk, pent = pentagon_counts(faces, n)
     lam, vec = cage_symmetry(cage).spectrum
-    pi0, gap0, _, _ = _huckel(lam, n)
+    levels = _levels(lam)  # grouped once, filled at every charge
+    pi0, gap0, _, _ = _huckel(levels, n)
     base: dict[str, Any] = dict(
         n=n,
         pentagon_pairs=pairs,
@@ -316,7 +321,7 @@ def stability_indices_at(cage, charges) -> list[StabilityIndices]:
     )
     out = []
     for q in charges:
-        pi1, gap1, acc, shell1 = _huckel(lam, n - int(q))
+        pi1, gap1, acc, shell1 = _huckel(levels, n - int(q))
         out.append(StabilityIndices(
             charge=int(q), anion_pi_energy=round(pi1, 10), anion_gap=round(gap1, 10),
             acceptor_level=round(acc, 10), anion_shell=shell1, **base,
