@@ -105,39 +105,30 @@ def place(k, nfaces, size, deg, nbr, bnd, ptr, tri, ipr):
         ptr[3] = b0
         return c
     _add_tri(tri, ptr, bm, b0, k)
+    # the rim ends in turn (side 0 the oldest face, 1 the newest) until neither moves
     closed = False
-    while True:
-        changed = False
-        if t - h >= 2 and deg[bnd[h]] == size[bnd[h]]:
-            old = bnd[h]
-            h += 1
-            if t - h == 1:
-                _add_tri(tri, ptr, old, bnd[h], k)
-                closed = True
-                break
-            nb = bnd[h]
-            c = _connect(k, nb, size, deg, nbr, ipr)
-            if c != OK:
-                ptr[3] = nb
-                return c
-            _add_tri(tri, ptr, old, nb, k)
-            changed = True
-        if t - h >= 2 and deg[bnd[t - 1]] == size[bnd[t - 1]]:
-            old = bnd[t - 1]
-            t -= 1
-            if t - h == 1:
-                _add_tri(tri, ptr, bnd[h], old, k)
-                closed = True
-                break
-            nb = bnd[t - 1]
-            c = _connect(k, nb, size, deg, nbr, ipr)
-            if c != OK:
-                ptr[3] = nb
-                return c
-            _add_tri(tri, ptr, nb, old, k)
-            changed = True
-        if not changed:
-            break
+    side = 0
+    idle = 0
+    while idle < 2 and not closed:
+        f = bnd[h + side * (t - 1 - h)]
+        if t - h < 2 or deg[f] != size[f]:
+            idle += 1
+        else:  # f is surrounded: it leaves the rim and k touches the face beyond it
+            idle = 0
+            h += 1 - side
+            t -= side
+            nb = bnd[h + side * (t - 1 - h)]
+            closed = t - h == 1
+            if not closed:
+                c = _connect(k, nb, size, deg, nbr, ipr)
+                if c != OK:
+                    ptr[3] = nb
+                    return c
+            if side:
+                _add_tri(tri, ptr, nb, f, k)
+            else:
+                _add_tri(tri, ptr, f, nb, k)
+        side = 1 - side
     ptr[0] = h
     ptr[1] = t
     if closed:
@@ -389,61 +380,26 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     nodes = ctl[3]
     windups = ctl[4]
     while k >= kmin:
-        if k == kstop and kstop < nf:
-            # a prefix of the requested length: list it, do not go deeper
-            j = 0
-            for i in range(12):
-                out[nout, i] = 0
-            for i in range(kstop):
-                if size[i] == 5:
-                    out[nout, j] = i + 1
-                    j += 1
-            nout += 1
-            k -= 1
-            for j in range(deg[k]):
-                deg[nbr[k, j]] -= 1
-            deg[k] = 0
-            if ptr[4] >= 0:
-                bnd[ptr[4]] = ptr[5]
-            ptr[0] = psave[k, 0]
-            ptr[1] = psave[k, 1]
-            ptr[2] = psave[k, 2]
-            ptr[4] = psave[k, 4]
-            ptr[5] = psave[k, 5]
-            if size[k] == 5:
-                npent -= 1
-            if nout >= max_out:
-                break
-            continue
-        if k == nf:
-            # a complete spiral: keep it if no pentagon start gives a smaller one
-            windups += 1
-            fill_next(tri, nxt)
-            if _is_canonical(nxt, size, deg, nbr, uout, placed, cnt, ubnd):
+        if k == nf or (k == kstop and kstop < nf):
+            keep = True
+            if k == nf:  # a complete spiral: keep it if no pentagon start gives a smaller one
+                windups += 1
+                fill_next(tri, nxt)
+                keep = _is_canonical(nxt, size, deg, nbr, uout, placed, cnt, ubnd)
+            if keep:  # (or a prefix of the requested length: listed, not searched deeper)
                 j = 0
-                for i in range(nf):
+                for i in range(12):
+                    out[nout, i] = 0
+                for i in range(k):
                     if size[i] == 5:
                         out[nout, j] = i + 1
                         j += 1
                 nout += 1
-            k -= 1
-            for j in range(deg[k]):
-                deg[nbr[k, j]] -= 1
-            deg[k] = 0
-            if ptr[4] >= 0:
-                bnd[ptr[4]] = ptr[5]
-            ptr[0] = psave[k, 0]
-            ptr[1] = psave[k, 1]
-            ptr[2] = psave[k, 2]
-            ptr[4] = psave[k, 4]
-            ptr[5] = psave[k, 5]
-            if size[k] == 5:
-                npent -= 1
-            if nout >= max_out:
-                break
-            continue
-        tk = tried[k]
+            tk = 2
+        else:
+            tk = tried[k]
         if tk == 2:
+            # nothing more to try at face k: take face k - 1 off again
             k -= 1
             if k >= kmin:
                 for j in range(deg[k]):
@@ -458,6 +414,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
                 ptr[5] = psave[k, 5]
                 if size[k] == 5:
                     npent -= 1
+            if nout >= max_out:
+                break
             continue
         tried[k] = tk + 1
         s = 5 if tk == 0 else 6
@@ -492,74 +450,52 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             if ipr and s == 5:
                 ok = False
         else:
-            bm = bnd[t - 1]
-            b0 = bnd[h]
-            # connect k to bm and b0
-            if deg[bm] >= size[bm] or (ipr and s == 5 and size[bm] == 5):
-                ok = False
-            else:
-                nbr[bm, deg[bm]] = k
-                deg[bm] += 1
-                nbr[k, 0] = bm
-                deg[k] = 1
-                if deg[b0] >= size[b0] or (ipr and s == 5 and size[b0] == 5):
+            for e in range(2):  # k touches the newest rim face, then the oldest
+                x = bnd[t - 1] if e == 0 else bnd[h]
+                if deg[x] >= size[x] or (ipr and s == 5 and size[x] == 5):
                     ok = False
-                else:
-                    nbr[b0, deg[b0]] = k
-                    deg[b0] += 1
-                    nbr[k, 1] = b0
-                    deg[k] = 2
-                    tri[nt, 0] = bm
-                    tri[nt, 1] = b0
-                    tri[nt, 2] = k
-                    nt += 1
-            while ok:
+                    break
+                nbr[x, deg[x]] = k
+                deg[x] += 1
+                nbr[k, e] = x
+                deg[k] = e + 1
+            if ok:
+                tri[nt, 0] = bnd[t - 1]
+                tri[nt, 1] = bnd[h]
+                tri[nt, 2] = k
+                nt += 1
+            while ok and not closed:
                 changed = False
-                f = bnd[h]
-                if t - h >= 2 and deg[f] == size[f]:
-                    h += 1
-                    nb = bnd[h]
-                    if t - h == 1:
-                        tri[nt, 0] = f
-                        tri[nt, 1] = nb
-                        tri[nt, 2] = k
-                        nt += 1
-                        closed = True
-                        break
-                    if deg[nb] >= size[nb] or deg[k] >= s or (ipr and s == 5 and size[nb] == 5):
-                        ok = False
-                        break
-                    nbr[nb, deg[nb]] = k
-                    deg[nb] += 1
-                    nbr[k, deg[k]] = nb
-                    deg[k] += 1
-                    tri[nt, 0] = f
-                    tri[nt, 1] = nb
+                for side in range(2):  # the oldest rim face, then the newest
+                    f = bnd[h] if side == 0 else bnd[t - 1]
+                    if t - h < 2 or deg[f] != size[f]:
+                        continue
+                    # f is surrounded: it leaves the rim and k touches the face beyond it
+                    if side == 0:
+                        h += 1
+                        nb = bnd[h]
+                        a, b = f, nb
+                    else:
+                        t -= 1
+                        nb = bnd[t - 1]
+                        a, b = nb, f
+                    closed = t - h == 1
+                    if not closed:
+                        if deg[nb] >= size[nb] or deg[k] >= s or (
+                            ipr and s == 5 and size[nb] == 5
+                        ):
+                            ok = False
+                            break
+                        nbr[nb, deg[nb]] = k
+                        deg[nb] += 1
+                        nbr[k, deg[k]] = nb
+                        deg[k] += 1
+                    tri[nt, 0] = a
+                    tri[nt, 1] = b
                     tri[nt, 2] = k
                     nt += 1
-                    changed = True
-                f = bnd[t - 1]
-                if t - h >= 2 and deg[f] == size[f]:
-                    t -= 1
-                    nb = bnd[t - 1]
-                    if t - h == 1:
-                        tri[nt, 0] = nb
-                        tri[nt, 1] = f
-                        tri[nt, 2] = k
-                        nt += 1
-                        closed = True
+                    if closed:
                         break
-                    if deg[nb] >= size[nb] or deg[k] >= s or (ipr and s == 5 and size[nb] == 5):
-                        ok = False
-                        break
-                    nbr[nb, deg[nb]] = k
-                    deg[nb] += 1
-                    nbr[k, deg[k]] = nb
-                    deg[k] += 1
-                    tri[nt, 0] = nb
-                    tri[nt, 1] = f
-                    tri[nt, 2] = k
-                    nt += 1
                     changed = True
                 if not changed:
                     break

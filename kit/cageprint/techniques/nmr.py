@@ -277,15 +277,15 @@ def observe_nmr(
     lines_p, lines_a, lines_s = [], [], []
     for p, a, s in zip(pos, area, s_n, strict=False):
         near = [(r, lab) for r, half, lab in windows if abs(r - p) <= half]
+        why = None
         if near:
-            excluded.append({"position": float(p),
-                             "reason": f"reference/solvent line at {near[0][0]:g} ppm"
-                                       + ("" if near[0][1] == "reference"
-                                          else f" ({near[0][1]})")})
-            continue
-        if not lo <= p <= hi:
-            excluded.append({"position": float(p),
-                             "reason": f"outside the cage region {lo:g}-{hi:g} ppm"})
+            r, lab = near[0]
+            why = f"reference/solvent line at {r:g} ppm" + ("" if lab == "reference"
+                                                            else f" ({lab})")
+        elif not lo <= p <= hi:
+            why = f"outside the cage region {lo:g}-{hi:g} ppm"
+        if why:
+            excluded.append({"position": float(p), "reason": why})
             continue
         lines_p.append(float(p))
         lines_a.append(float(a))
