@@ -21,6 +21,7 @@ from .delimited import parse_delimited, sniff_delimited
 from .jcamp import jcamp_blocks, parse_jcamp, sniff_jcamp
 from .mzml import mzml_blocks, parse_mzml, sniff_mzml
 from .peaklist import parse_peaklist
+from .rawnmr import parse_nmr_zip, read_nmr_folder, sniff_zip
 
 __all__ = [
     "READERS",
@@ -39,6 +40,8 @@ __all__ = [
     "parse_mzml",
     "read_mzml",
     "mzml_blocks",
+    "read_nmr_folder",
+    "parse_nmr_zip",
     "MAX_POINTS",
     "ReadLimits",
     "SNIFF_BYTES",
@@ -195,6 +198,11 @@ def load_spectrum(
     >>> s.technique, len(s), s.meta["format"]
     ('mass', 3, 'delimited')
     """
+    if isinstance(path_or_bytes, (str, os.PathLike)) and Path(path_or_bytes).is_dir():
+        if format not in (None, "nmr-folder", "nmr-zip"):
+            raise SpectrumFormatError(f"is a folder; format={format!r} reads files (a folder "
+                                      "is read as a raw NMR experiment)", str(path_or_bytes))
+        return read_nmr_folder(path_or_bytes, technique=technique, **options)
     data, source, ext = _read_input(path_or_bytes, options.pop("source", None))
     key = _choose_format(data, source, ext, format)
     return READERS[key].parse(data, source, technique=technique, **options)
@@ -255,3 +263,4 @@ register_reader(
 )
 register_reader("mzml", parse_mzml, sniff=sniff_mzml, extensions=(".mzml",), blocks=mzml_blocks)
 register_reader("peaklist", parse_peaklist, extensions=(".peaks", ".peaklist"))
+register_reader("nmr-zip", parse_nmr_zip, sniff=sniff_zip, extensions=(".zip",))
