@@ -12,16 +12,14 @@ from __future__ import annotations
 import io
 import shutil
 import zipfile
-from pathlib import Path
 
 import numpy as np
 import pytest
 
+import rawnmr_fixtures as R
 from cageprint.errors import SpectrumFormatError
 from cageprint.spectra.fid import FidProcessing
 from cageprint.spectra.readers import load_spectrum
-
-import rawnmr_fixtures as R
 
 pytest.importorskip("nmrglue")
 

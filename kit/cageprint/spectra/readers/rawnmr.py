@@ -106,7 +106,8 @@ def _binary(path: Path, shown: str, dtype: str, big: bool, count: int) -> np.nda
     data = np.frombuffer(raw, dtype=(">" if big else "<") + dtype, count=count)
     if dtype.startswith("i") and count >= 64:
         swapped = data.byteswap()
-        here, there = np.median(np.abs(data.astype(float))), np.median(np.abs(swapped.astype(float)))
+        here = np.median(np.abs(data.astype(float)))
+        there = np.median(np.abs(swapped.astype(float)))
         if here > 2.0**26 and there < here * 1e-3:
             raise SpectrumFormatError(
                 f"the values look byte-swapped: the parameters say {'big' if big else 'little'}"
