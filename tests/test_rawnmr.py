@@ -292,3 +292,38 @@ def test_truncated_zip_is_refused():
     data = _zip_bytes([("1/acqus", b"##TITLE= x\n" * 50)])
     with pytest.raises(SpectrumFormatError, match="upload.zip"):
         load_spectrum(data[: len(data) // 2], source="upload.zip", format="nmr-zip")
+
+
+def _c76_folder(tmp_path):
+    rng = np.random.default_rng(5)  # 19 invented lines of equal area: the D2 pattern 19x4
+    lines = tuple((float(p), 1.0) for p in np.sort(rng.uniform(130, 150, 19)))
+    return R.write_bruker(tmp_path / "c76" / "1", R.Signal(lines=lines, complex_points=65536,
+                                                           noise=0.05))
+
+
+def test_assign_takes_a_raw_folder(tmp_path, capsys):
+    # C76 IPR isomers: 1 (D2, 19 lines of 4 carbons) and 2 (Td); from memory
+    from cageprint.cli import main
+
+    folder = _c76_folder(tmp_path)
+    record = tmp_path / "rec.json"
+    assert main(["assign", "C76", "--ipr", "--nmr", str(folder), "--csv",
+                 "--fid", "line_broadening_hz=0.5", "--record", str(record)]) == 0
+    out = capsys.readouterr().out.splitlines()
+    assert out[1].split(",")[1:3] == ["C76", "1"]
+    import json
+
+    proc = json.loads(record.read_text())["inputs"]["nmr"]["processing"]
+    assert proc["settings"]["line_broadening_hz"] == 0.5 and proc["phase_mode"] == "auto"
+
+
+def test_notebook_parameter_accepts_a_folder(tmp_path):
+    # notebook 03 hands NMR_FILE to SpectrumLoader(folder=parent, initial=name)
+    pytest.importorskip("ipywidgets")
+    from cageprint.session import Session
+    from cageprint.widgets.loader import SpectrumLoader
+
+    folder = _c76_folder(tmp_path)
+    s = Session("C76")
+    SpectrumLoader(s, folder=folder.parent, technique="nmr", initial=folder.name, plot=False)
+    assert s.spectra["nmr"].meta["format"] == "nmr-folder"

@@ -80,6 +80,24 @@ def _checksum(spectrum: Any) -> tuple[str, str]:
     return h.hexdigest(), "x and y arrays (float64, little-endian)"
 
 
+def _plain_processing(proc: dict) -> dict:
+    keep = ("settings", "points", "size", "group_delay", "p0", "p1", "phase_mode",
+            "reference", "reference_offset_ppm", "from", "SI", "SF", "OFFSET", "SW_p")
+    return json.loads(json.dumps({k: proc[k] for k in keep if k in proc}, default=float))
+
+
+def processing_words(proc: dict) -> str:
+    """One line saying how a raw FID was processed (settings, phase, reference)."""
+    if proc.get("from") == "1r":
+        return "the stored processed spectrum (1r) was read as it is"
+    st = proc.get("settings", {})
+    return (f"{st.get('window', '')} window {st.get('line_broadening_hz', 0):g} Hz, "
+            f"zero filled {proc.get('points')} -> {proc.get('size')} points, group delay "
+            f"{proc.get('group_delay', 0):g} points, phase p0 {proc.get('p0', 0):.1f} deg, "
+            f"p1 {proc.get('p1', 0):.1f} deg ({proc.get('phase_mode', '')}), baseline "
+            f"order {st.get('baseline_order', '')}, reference: {proc.get('reference', '')}")
+
+
 def make_record(session: Any, *, sample: str | None = None) -> dict[str, Any]:
     """The assignment record of a session, as a JSON-ready dict.
 
@@ -99,6 +117,9 @@ def make_record(session: Any, *, sample: str | None = None) -> dict[str, Any]:
             inputs[t] = {"source": session.sources.get(t, ""), "sha256": sha,
                          "sha256_of": of, "format": str(dict(spec.meta).get("format", "")),
                          "kind": spec.kind, "points": len(spec)}
+            proc = dict(spec.meta).get("processing")
+            if isinstance(proc, dict):  # a raw FID: how it was processed, to redo it
+                inputs[t]["processing"] = _plain_processing(proc)
         obs = session.observation(t)
         if hasattr(obs, "to_dict"):
             observations[t] = obs.to_dict()
@@ -350,6 +371,9 @@ def render_html(record: Mapping[str, Any], *, session: Any = None,
         out.append(f"<tr><td>{_e(label(t))}</td><td>{_e(inp.get('source'))}</td>"
                    f"<td>{_e(inp.get('format'))}</td><td>{_e(inp.get('points'))}</td>"
                    f"<td><code>{_e(inp.get('sha256'))}</code></td></tr>")
+        if inp.get("processing"):
+            out.append(f"<tr><td></td><td colspan='4' class='note'>processed from the raw FID: "
+                       f"{_e(processing_words(inp['processing']))}</td></tr>")
     out.append("</table>")
     w = ", ".join(f"{_e(label(t))} {ranking.weights.get(t, 0):g}" for t in ranking.techniques)
     out.append(f"<p class='note'>Weights: {_e(w)}. Scores are log-likelihood-like "

@@ -5,12 +5,15 @@ from __future__ import annotations
 import argparse
 import csv
 import sys
+from dataclasses import fields
+from pathlib import Path
 from typing import Any
 
 from ..errors import SessionError
 from ..report import first_candidate_sticks, make_record, save_record, save_report
 from ..session import Session
 from ..settings import Spec
+from ..spectra.fid import FidProcessing
 from ..techniques import registry
 from ._checks import EXIT_NOTHING, EXIT_STATUS_HELP, check_count, check_output, check_text, shown
 
@@ -32,8 +35,14 @@ def add_parser(sub: Any) -> argparse.ArgumentParser:
     for tech in registry.techniques():
         if tech.cli_flag:
             what = "spectrum or peak list" if tech.needs_spectrum else "input file"
+            if tech.key == "nmr":
+                what += ", or a raw experiment folder (Bruker, Varian/Agilent) or its zip"
             p.add_argument(tech.cli_flag, dest=f"input_{tech.key}", metavar="FILE",
                            default=None, help=f"{tech.label} {what}")
+    p.add_argument("--fid", dest="fid", action="append", default=[], metavar="NAME=VALUE",
+                   help="processing of a raw 13C FID, e.g. --fid line_broadening_hz=1 "
+                   "--fid phase=manual --fid p0=-35 (repeatable; names: "
+                   + ", ".join(f.name for f in fields(FidProcessing)) + ")")
     p.add_argument("--solvent", default=None, help="NMR solvent whose 13C lines are excluded")
     p.add_argument("--weight", action="append", default=[], metavar="TECH=W",
                    help="weight of a technique, e.g. --weight uvvis=0 (repeatable); "
@@ -87,9 +96,36 @@ def build_session(args: argparse.Namespace) -> Session:
     for technique in registry.techniques():
         path = getattr(args, f"input_{technique.key}", None)
         if path:
-            s.load(technique.key, path)
+            raw = technique.key == "nmr" and (Path(path).is_dir()
+                                              or Path(path).suffix.lower() == ".zip")
+            s.load(technique.key, path, **({"processing": _fid_settings(args.fid)} if raw
+                                           else {}))
     s.set_candidates(ipr=args.ipr)
     return s
+
+
+def _fid_settings(items: list[str]) -> FidProcessing:
+    """--fid NAME=VALUE items as FidProcessing (numbers where the field is a number)."""
+    kinds = {f.name: type(getattr(FidProcessing(), f.name)) for f in fields(FidProcessing)}
+    values: dict[str, Any] = {}
+    for item in items:
+        key, val = _split(item, "--fid", "NAME=VALUE such as line_broadening_hz=1")
+        if key not in kinds:
+            raise SessionError(f"--fid {item!r}: unknown name {key!r}; names: "
+                               + ", ".join(kinds))
+        kind = kinds[key]
+        try:
+            if key == "reference":
+                values[key] = val if val in ("stored", "solvent", "tms") else float(val)
+            else:
+                values[key] = kind(val)
+        except ValueError:
+            raise SessionError(f"--fid {item!r}: {key} takes a {kind.__name__}; got "
+                               f"{val!r}") from None
+    try:
+        return FidProcessing(**values)
+    except Exception as exc:
+        raise SessionError(f"--fid: {exc}") from None
 
 
 def _setting_text(value: Any, spec: Spec) -> str:

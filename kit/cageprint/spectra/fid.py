@@ -29,6 +29,7 @@ import numpy as np
 from scipy.signal import find_peaks
 
 from ..errors import SpectrumError
+from .references import multiplet_lines
 
 __all__ = ["Acquisition", "FidProcessing", "ProcessedFid", "process_fid", "auto_phase",
            "reference_offset", "WINDOWS", "PHASE_PEAKS", "REFERENCE_SEARCH_PPM"]
@@ -338,8 +339,6 @@ def reference_offset(ppm: np.ndarray, real: np.ndarray, acq: Acquisition,
     if ref == "stored":
         return 0.0, ("stored frequencies" if acq.referenced
                      else "stored frequencies (the file gives no reference: unreferenced)")
-    from .references import multiplet_lines  # the solvent tables are only needed here
-
     if ref == "tms":
         groups = {"TMS": [(0.0, 1.0)]}
     else:

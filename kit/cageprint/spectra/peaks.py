@@ -15,7 +15,7 @@ from .filters import (
     SMOOTH_WINDOW,
     _baseline_of,
     _frozen,
-    _noise_sigma,
+    _noise_sigma_correlated,
     _region_integrals,
     crop,
     smooth_array,
@@ -266,9 +266,14 @@ def pick_peaks(
     base, bdiag = _baseline_of(s, baseline)
     yc = s.y - base
     diag["baseline"] = bdiag
-    sigma = float(noise) if noise is not None else _noise_sigma(yc)
+    lag = 0
+    if noise is not None:
+        sigma = float(noise)
+    else:
+        sigma, lag = _noise_sigma_correlated(yc)
     diag["noise"] = sigma
-    diag["noise_method"] = "given" if noise is not None else "mad-second-difference"
+    diag["noise_method"] = ("given" if noise is not None else "mad-second-difference"
+                            if lag <= 1 else f"mad-lag-{lag}-difference (correlated noise)")
     if smooth:
         window = SMOOTH_WINDOW if smooth is True else int(smooth)
         ys = smooth_array(yc, window, SMOOTH_ORDER)

@@ -19,12 +19,13 @@ from ..spectra import Spectrum
 
 
 def load(session: Session, source: Any, technique: str | None = None,
-         name: str | None = None, format: str | None = None) -> Spectrum:
+         name: str | None = None, format: str | None = None, **options: Any) -> Spectrum:
     """Read a spectrum (path or bytes) into the session; with no technique the file says.
 
     Nothing in the session changes when reading fails (the reader raises first).
+    ``options`` go to the reader (e.g. ``processing=`` for a raw NMR folder).
     """
-    return session.load(technique, source, format=format, name=name)
+    return session.load(technique, source, format=format, name=name, **options)
 
 
 def set_thresholds(session: Session, technique: str, **values: Any) -> None:

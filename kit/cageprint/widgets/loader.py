@@ -11,12 +11,15 @@ import ipywidgets as w
 from .. import figures
 from ..session import Session
 from ..spectra import Spectrum
+from ..spectra.fid import FidProcessing
+from ..spectra.readers.rawnmr import is_experiment_folder
 from ..techniques import registry
 from . import _port
 from ._common import Problem, boxed, figure_widget, sync_figure
 
 #: file endings offered in the picker
-SPECTRUM_SUFFIXES = (".jdx", ".dx", ".jcamp", ".csv", ".tsv", ".txt", ".mzml", ".peaks")
+SPECTRUM_SUFFIXES = (".jdx", ".dx", ".jcamp", ".csv", ".tsv", ".txt", ".mzml", ".mzxml",
+                     ".mgf", ".peaks", ".zip")
 _AUTO = "(from the file)"
 
 
@@ -51,7 +54,8 @@ class SpectrumLoader:
         self._listeners: list = []
         self._read_from = None
         files = sorted(p.name for p in self.folder.iterdir()
-                       if p.is_file() and p.suffix.lower() in SPECTRUM_SUFFIXES) \
+                       if (p.is_file() and p.suffix.lower() in SPECTRUM_SUFFIXES)
+                       or is_experiment_folder(p)) \
             if self.folder.is_dir() else []
         self.file = w.Dropdown(options=["", *files], value="", description="file",
                                layout=w.Layout(width="420px"))
@@ -65,13 +69,15 @@ class SpectrumLoader:
         self.technique.add_class("cp-technique")
         self.info = w.HTML()
         self.info.add_class("cp-spectrum-info")
+        self.processing = FidControls(self._on_processing)
         self.problem = Problem("cp-loader-error")
         self.fig = figure_widget(figures.spectrum_figure(_placeholder(), title="no spectrum yet"),
                                  "cp-loader-figure")
         self.file.observe(self._on_file, names=["value"])
         self.upload.observe(self._on_upload, names=["value"])
         self.technique.observe(self._on_technique, names=["value"])
-        parts = [w.HBox([self.file, self.upload, self.technique]), self.info, self.problem.widget]
+        parts = [w.HBox([self.file, self.upload, self.technique]), self.info,
+                 self.processing.ui, self.problem.widget]
         self.ui = w.VBox(parts + ([boxed(self.fig)] if plot else []))
         self.ui.add_class("cp-loader")
         if initial and initial in self.file.options:
@@ -82,7 +88,7 @@ class SpectrumLoader:
     def _initial_elsewhere(self, initial: str) -> None:
         """An initial file not in the list: read it if it exists, else say which and why."""
         path = self.folder / initial
-        if path.is_file():
+        if path.is_file() or is_experiment_folder(path):
             self.load(path, name=initial)
             return
         why = ("the folder does not exist" if not self.folder.is_dir() else
@@ -94,7 +100,8 @@ class SpectrumLoader:
         """Read ``source`` (path or bytes) into the session; True when it worked."""
         tech = self.technique.value or None
         try:
-            spec = _port.load(self.session, source, technique=tech, name=name)
+            spec = _port.load(self.session, source, technique=tech, name=name,
+                              **self.processing.options_for(source))
         except Exception as exc:  # shown, not swallowed: the user reads it in the widget
             shown = name or str(source)
             self.problem.show(f"Could not read {shown}: {exc}. "
@@ -109,6 +116,7 @@ class SpectrumLoader:
         self.spectrum = spec
         self.source = name or str(source)
         self._read_from = source  # path or uploaded bytes, to read again as another technique
+        self.processing.show_for(spec)
         self._show()
         for fn in self._listeners:
             fn(spec)
@@ -151,6 +159,82 @@ class SpectrumLoader:
     def _on_technique(self, change) -> None:
         if self._read_from is not None:
             self.load(self._read_from, name=self.source)
+
+    def _on_processing(self) -> None:
+        if self._read_from is not None:
+            self.load(self._read_from, name=self.source)
+
+
+class FidControls:
+    """Processing controls for a raw NMR experiment (shown only when one is loaded).
+
+    Each change reprocesses the FID and redraws; the settings used go into the
+    spectrum's ``meta["processing"]``, hence into the session, record and report.
+    """
+
+    def __init__(self, on_change):
+        d = FidProcessing()
+        style = {"description_width": "initial"}
+        self.lb = w.BoundedFloatText(value=d.line_broadening_hz, min=0.0, max=50.0, step=0.1,
+                                     description="line broadening (Hz)", style=style,
+                                     layout=w.Layout(width="220px"))
+        self.window = w.Dropdown(options=["exponential", "gaussian", "none"], value=d.window,
+                                 description="window", layout=w.Layout(width="200px"))
+        self.phase = w.ToggleButtons(options=[("auto phase", "auto"), ("by hand", "manual")],
+                                     value=d.phase)
+        self.p0 = w.FloatSlider(value=0.0, min=-180.0, max=180.0, step=0.5,
+                                description="p0 (deg)", continuous_update=False)
+        self.p1 = w.FloatSlider(value=0.0, min=-360.0, max=360.0, step=1.0,
+                                description="p1 (deg)", continuous_update=False)
+        self.reference = w.Dropdown(options=[("stored", "stored"), ("solvent line", "solvent"),
+                                             ("TMS", "tms")], value="stored",
+                                    description="reference")
+        self.note = w.HTML()
+        self._on_change = on_change
+        self._quiet = False
+        for c in (self.lb, self.window, self.phase, self.p0, self.p1, self.reference):
+            c.observe(self._changed, names=["value"])
+        self.ui = w.VBox([w.HBox([self.lb, self.window, self.reference]),
+                          w.HBox([self.phase, self.p0, self.p1]), self.note],
+                         layout=w.Layout(display="none"))
+        self.ui.add_class("cp-fid-controls")
+
+    def settings(self) -> FidProcessing:
+        return FidProcessing(line_broadening_hz=float(self.lb.value), window=self.window.value,
+                             phase=self.phase.value, p0=float(self.p0.value),
+                             p1=float(self.p1.value), reference=self.reference.value)
+
+    def options_for(self, source) -> dict:
+        raw = isinstance(source, (bytes, bytearray)) and bytes(source[:4]) == b"PK\x03\x04"
+        raw = raw or (isinstance(source, (str, os.PathLike)) and pathlib.Path(source).is_dir())
+        return {"processing": self.settings()} if raw else {}
+
+    def show_for(self, spectrum) -> None:
+        proc = spectrum.meta.get("processing") if spectrum is not None else None
+        is_fid = isinstance(proc, dict) and "p0" in proc
+        self.ui.layout.display = "" if is_fid else "none"
+        if not is_fid:
+            return
+        self._quiet = True  # show the phase the automatic correction chose
+        try:
+            if proc.get("phase_mode") == "auto":
+                self.p0.value = max(-180.0, min(180.0, round(proc["p0"], 1)))
+                self.p1.value = max(-360.0, min(360.0, round(proc["p1"], 1)))
+        finally:
+            self._quiet = False
+        self.note.value = html.escape(
+            f"FID {proc.get('points')} points -> {proc.get('size')}, phase p0 "
+            f"{proc['p0']:.1f} deg, p1 {proc['p1']:.1f} deg ({proc.get('phase_mode')}), "
+            f"reference: {proc.get('reference', '')}")
+
+    def _changed(self, change) -> None:
+        if self._quiet:
+            return
+        if change["owner"] in (self.p0, self.p1) and self.phase.value == "auto":
+            self._quiet = True
+            self.phase.value = "manual"  # moving a phase slider means phasing by hand
+            self._quiet = False
+        self._on_change()
 
 
 def _placeholder() -> Spectrum:

@@ -19,6 +19,7 @@ from ..model import Spectrum
 from ._common import BYTES_SOURCE, MAX_POINTS, ReadLimits, check_binary, is_blank
 from .delimited import parse_delimited, sniff_delimited
 from .jcamp import jcamp_blocks, parse_jcamp, sniff_jcamp
+from .msformats import mgf_blocks, mzxml_blocks, parse_mgf, parse_mzxml, sniff_mgf, sniff_mzxml
 from .mzml import mzml_blocks, parse_mzml, sniff_mzml
 from .peaklist import parse_peaklist
 from .rawnmr import parse_nmr_zip, read_nmr_folder, sniff_zip
@@ -41,6 +42,8 @@ __all__ = [
     "read_mzml",
     "mzml_blocks",
     "read_nmr_folder",
+    "parse_mzxml",
+    "parse_mgf",
     "parse_nmr_zip",
     "MAX_POINTS",
     "ReadLimits",
@@ -263,4 +266,7 @@ register_reader(
 )
 register_reader("mzml", parse_mzml, sniff=sniff_mzml, extensions=(".mzml",), blocks=mzml_blocks)
 register_reader("peaklist", parse_peaklist, extensions=(".peaks", ".peaklist"))
+register_reader("mzxml", parse_mzxml, sniff=sniff_mzxml, extensions=(".mzxml",),
+                blocks=mzxml_blocks)
+register_reader("mgf", parse_mgf, sniff=sniff_mgf, extensions=(".mgf",), blocks=mgf_blocks)
 register_reader("nmr-zip", parse_nmr_zip, sniff=sniff_zip, extensions=(".zip",))

@@ -177,7 +177,7 @@ def _read_bruker(folder: Path, shown: str, solvent: str | None, group_delay: flo
 
 
 def _read_varian(folder: Path, shown: str, solvent: str | None):
-    import nmrglue as ng
+    import nmrglue as ng  # heavy import (~1 s), only for raw folders
 
     where = _name(folder, "procpar", shown)
     pp = _params(folder / "procpar", where, ng.varian.read_procpar)
@@ -225,7 +225,7 @@ def _read_varian(folder: Path, shown: str, solvent: str | None):
 
 
 def _read_processed(folder: Path, shown: str, pdata: int):
-    import nmrglue as ng
+    import nmrglue as ng  # heavy import (~1 s), only for raw folders
 
     pdir = folder if (folder / "procs").is_file() else folder / "pdata" / str(pdata)
     pshown = _name(folder, "" if pdir == folder else f"pdata/{pdata}", shown)
