@@ -218,7 +218,8 @@ def test_malformed_mzml(tmp_path):
 def test_loader_level_errors(tmp_path):
     with pytest.raises(SpectrumFormatError, match=r"nothere.csv: no such file"):
         load_spectrum(tmp_path / "nothere.csv")
-    with pytest.raises(SpectrumFormatError, match=r"is a directory, not a file"):
+    # a folder is read as a raw NMR experiment (issue 12); one without one says so
+    with pytest.raises(SpectrumFormatError, match=r"no NMR experiment here: a Bruker folder"):
         load_spectrum(tmp_path)
     with pytest.raises(SpectrumFormatError, match=r"<bytes>: unknown format='xls'; known formats"):
         load_spectrum(b"1,2\n", format="xls")

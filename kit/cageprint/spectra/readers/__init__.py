@@ -18,6 +18,7 @@ from ...errors import SpectrumFormatError
 from ..model import Spectrum
 from ._common import BYTES_SOURCE, MAX_POINTS, ReadLimits, check_binary, is_blank
 from .delimited import parse_delimited, sniff_delimited
+from .irbinary import refuse_instrument_binary, sniff_instrument_binary
 from .jcamp import jcamp_blocks, parse_jcamp, sniff_jcamp
 from .msformats import mgf_blocks, mzxml_blocks, parse_mgf, parse_mzxml, sniff_mgf, sniff_mzxml
 from .mzml import mzml_blocks, parse_mzml, sniff_mzml
@@ -269,4 +270,6 @@ register_reader("peaklist", parse_peaklist, extensions=(".peaks", ".peaklist"))
 register_reader("mzxml", parse_mzxml, sniff=sniff_mzxml, extensions=(".mzxml",),
                 blocks=mzxml_blocks)
 register_reader("mgf", parse_mgf, sniff=sniff_mgf, extensions=(".mgf",), blocks=mgf_blocks)
+register_reader("instrument-binary", refuse_instrument_binary, sniff=sniff_instrument_binary,
+                extensions=(".spa", ".spc"))
 register_reader("nmr-zip", parse_nmr_zip, sniff=sniff_zip, extensions=(".zip",))
