@@ -98,8 +98,8 @@ def build_session(args: argparse.Namespace) -> Session:
         if path:
             raw = technique.key == "nmr" and (Path(path).is_dir()
                                               or Path(path).suffix.lower() == ".zip")
-            s.load(technique.key, path, **({"processing": _fid_settings(args.fid)} if raw
-                                           else {}))
+            opts: dict[str, Any] = {"processing": _fid_settings(args.fid)} if raw else {}
+            s.load(technique.key, path, **opts)
     s.set_candidates(ipr=args.ipr)
     return s
 
