@@ -97,3 +97,19 @@ def test_small_cascade_stores_and_resumes(tmp_path):
     assert all(row.converged for row in r.rows) and r.method == "GFN2-xTB"
     again = cascade("C40", shortlist=2, path=path, workers=0, progress=False)
     assert again.energy_cpu_seconds == 0.0 and again.rows == r.rows
+
+
+@pytest.mark.slow
+def test_c84_isomers_22_and_23_lowest_of_24_by_gfn2():
+    # C84: the D2 (isomer 22) and D2d (isomer 23) cages are the two main isomers isolated
+    # and the two lowest in energy among the 24 IPR cages (Manolopoulos & Fowler, J. Chem.
+    # Phys. 1992; Okada & Saito, Chem. Phys. Lett. 1996; from memory)
+    from cageprint.session import Session
+
+    s = Session("C84")
+    s.set_candidates(ipr=True)
+    s.load("stability", "xtb")
+    s.set_threshold("stability", "max_relax", 24)
+    rows = s.ranking.rows
+    assert {rows[0].candidate.isomer, rows[1].candidate.isomer} == {22, 23}
+    assert any("GFN2-xTB" in r for r in rows[0].reasons)
