@@ -18,7 +18,16 @@ from ...errors import SpectrumFormatError
 from ..model import Spectrum
 from ._common import BYTES_SOURCE, MAX_POINTS, ReadLimits, check_binary, is_blank
 from .delimited import parse_delimited, sniff_delimited
-from .irbinary import refuse_instrument_binary, sniff_instrument_binary
+from .irbinary import (
+    OPUS_EXTENSIONS,
+    opus_blocks,
+    parse_opus,
+    refuse_spa,
+    refuse_spc,
+    sniff_opus,
+    sniff_spa,
+    sniff_spc,
+)
 from .jcamp import jcamp_blocks, parse_jcamp, sniff_jcamp
 from .msformats import mgf_blocks, mzxml_blocks, parse_mgf, parse_mzxml, sniff_mgf, sniff_mzxml
 from .mzml import mzml_blocks, parse_mzml, sniff_mzml
@@ -46,6 +55,7 @@ __all__ = [
     "parse_mzxml",
     "parse_mgf",
     "parse_nmr_zip",
+    "parse_opus",
     "MAX_POINTS",
     "ReadLimits",
     "SNIFF_BYTES",
@@ -270,6 +280,8 @@ register_reader("peaklist", parse_peaklist, extensions=(".peaks", ".peaklist"))
 register_reader("mzxml", parse_mzxml, sniff=sniff_mzxml, extensions=(".mzxml",),
                 blocks=mzxml_blocks)
 register_reader("mgf", parse_mgf, sniff=sniff_mgf, extensions=(".mgf",), blocks=mgf_blocks)
-register_reader("instrument-binary", refuse_instrument_binary, sniff=sniff_instrument_binary,
-                extensions=(".spa", ".spc"))
+register_reader("opus", parse_opus, sniff=sniff_opus, extensions=OPUS_EXTENSIONS,
+                blocks=opus_blocks)
+register_reader("spc", refuse_spc, sniff=sniff_spc, extensions=(".spc",))
+register_reader("spa", refuse_spa, sniff=sniff_spa, extensions=(".spa",))
 register_reader("nmr-zip", parse_nmr_zip, sniff=sniff_zip, extensions=(".zip",))
