@@ -18,7 +18,7 @@ import pytest
 from cageprint.errors import SpectrumFormatError
 from cageprint.spectra import load_spectrum
 from cageprint.spectra.readers import list_blocks
-from cageprint.spectra.readers.irbinary import OPUS_MAGIC, check_opus_layout
+from cageprint.spectra.readers.irbinary import OPUS_MAGIC, check_opus_layout, sniff_spc
 
 brukeropus = pytest.importorskip("brukeropus")
 
@@ -197,6 +197,18 @@ def test_malformed_opus_refused_naming_the_file(tmp_path, name, data, match):
     with pytest.raises(SpectrumFormatError, match=match) as err:
         load_spectrum(path)
     assert name in str(err.value)
+
+
+def test_text_named_like_opus_is_pointed_to_the_text_reader(tmp_path):
+    path = tmp_path / "run.1"
+    path.write_bytes(b"1 2\n2 3\n3 4\n")
+    with pytest.raises(SpectrumFormatError, match="not a Bruker OPUS file.*format='delimited'"):
+        load_spectrum(path, technique="ir")
+    assert len(load_spectrum(path, format="delimited", technique="ir")) == 3
+
+
+def test_zip_is_not_taken_for_spc():
+    assert sniff_spc(b"PK\x03\x04" + bytes(600)) == 0.0
 
 
 def test_layout_check_accepts_the_good_file():

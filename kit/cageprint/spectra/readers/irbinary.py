@@ -124,14 +124,15 @@ def check_opus_layout(data: bytes, source: str) -> list[tuple[int, int, int]]:
     cageprint.errors.SpectrumFormatError: s.0: truncated OPUS header: 8 bytes, ...
     """
     n = len(data)
+    if data[:4] != OPUS_MAGIC[:len(data[:4])]:
+        text = "" if b"\x00" in data[:4096] else "; for a text file pass format='delimited'"
+        raise SpectrumFormatError(
+            f"not a Bruker OPUS file: it opens with {_hex(data[:4])}, an OPUS file with "
+            f"{_hex(OPUS_MAGIC)} (a numbered extension such as .0 alone does not make one)"
+            f"{text}", source)
     if n < _HEADER_BYTES:
         raise SpectrumFormatError(f"truncated OPUS header: {n} bytes, the header needs "
                                   f"{_HEADER_BYTES}", source)
-    if data[:4] != OPUS_MAGIC:
-        raise SpectrumFormatError(
-            f"not a Bruker OPUS file: it opens with {_hex(data[:4])}, an OPUS file with "
-            f"{_hex(OPUS_MAGIC)} (a numbered extension such as .0 alone does not make one)",
-            source)
     start, max_blocks, num_blocks = struct.unpack_from("<3i", data, 12)
     if max_blocks < 1 or num_blocks < 1 or num_blocks > max_blocks:
         raise SpectrumFormatError(f"bad OPUS header: {num_blocks} blocks of at most "
@@ -327,7 +328,8 @@ def sniff_spc(head: bytes) -> float:
     >>> sniff_spc(b"\\x00\\x4b" + bytes(510)), sniff_spc(b"x y\\n1 2\\n")
     (0.5, 0.0)
     """
-    if len(head) < 256 or head[1:2] not in (b"\x4b", b"\x4c", b"\x4d"):
+    if len(head) < 256 or head[1:2] not in (b"\x4b", b"\x4c", b"\x4d") \
+            or head.startswith(b"PK\x03\x04"):  # a zip archive also has 0x4B second
         return 0.0
     return 0.5 if b"\x00" in head[:64] else 0.0
 
