@@ -166,7 +166,7 @@ def check_opus_layout(data: bytes, source: str) -> list[tuple[int, int, int]]:
 def _read_with_brukeropus(data: bytes, source: str) -> Any:
     """Hand checked bytes to ``brukeropus.read_opus`` (it reads paths only: a temp file)."""
     try:
-        from brukeropus import read_opus
+        from brukeropus import read_opus  # optional extra: only OPUS files need it
     except ImportError:
         raise SpectrumFormatError(f"a Bruker OPUS file; {_INSTALL_HINT}", source) from None
     with tempfile.TemporaryDirectory(prefix="cageprint-opus-") as tmp:
