@@ -78,6 +78,16 @@ def test_columns_can_be_extended(monkeypatch, capsys):
     from cageprint.cli import isomers as cmd
 
     monkeypatch.setattr(cmd, "COLUMNS", cmd.COLUMNS + [("atoms", lambda c: c.n)])
-    assert main(["isomers", "28", "--csv"]) == 0
+    assert main(["isomers", "28", "--csv", "--columns", "all"]) == 0
     rows = list(csv.reader(io.StringIO(capsys.readouterr().out)))
     assert rows[0][-1] == "atoms" and rows[1][-1] == "28"
+
+
+def test_warm_up_runs_every_kernel(capsys):
+    # issue 16: one warm-up compiles and caches the kernels (search, spirals, symmetry)
+    assert main(["warm-up"]) == 0
+    out = capsys.readouterr().out.splitlines()
+    assert [ln.split(":")[0] for ln in out[:-1]] == [
+        "isomer search, all isomers (C40)", "isomer search, IPR (C80)",
+        "spiral wind-up and canonical spiral (C60)", "symmetry and fingerprint (C60)"]
+    assert out[-1].startswith("ready")

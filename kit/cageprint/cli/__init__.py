@@ -22,7 +22,7 @@ from types import ModuleType
 
 from .. import __version__
 from ..errors import CageprintError, ReaderWarning
-from . import assign, demo, envelope, isomers, library, mass, notebooks
+from . import assign, demo, envelope, isomers, library, mass, notebooks, warmup
 from ._checks import EXIT_ERROR, one_line
 
 #: sub-command name -> its module in this package
@@ -34,6 +34,7 @@ COMMANDS: dict[str, ModuleType] = {
     "demo": demo,
     "run-notebooks": notebooks,
     "library": library,
+    "warm-up": warmup,
 }
 
 

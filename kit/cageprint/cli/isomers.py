@@ -15,6 +15,7 @@ import sys
 from collections.abc import Callable
 
 from ..cage import Cage, check_n, iter_isomers
+from ..errors import CageprintError
 from ..symmetry import fingerprint
 
 
@@ -44,8 +45,16 @@ COLUMNS += [
 ]
 
 
-def rows(n: int, ipr: bool = False, progress: bool = False):
+#: the columns listed when none are asked for: the cages alone, no fingerprints computed
+CAGE_COLUMNS = ("formula", "isomer", "spiral", "fused_pentagon_pairs")
+
+
+def rows(n: int, ipr: bool = False, progress: bool = False,
+         columns: tuple[str, ...] | None = None):
     """Yield the header, then one list of values per isomer.
+
+    ``columns`` names the columns (default: all of :data:`COLUMNS`); a fingerprint is
+    computed only when a fingerprint column is asked for.
 
     Examples
     --------
@@ -58,12 +67,18 @@ def rows(n: int, ipr: bool = False, progress: bool = False):
     """
     n = check_n(n, name="N")  # fail before the header is printed
     listed = (lambda c: c.isomer) if ipr else (lambda c: c.isomer_all)
-    columns = [(name, listed if name == "isomer" else fn) for name, fn in COLUMNS]
+    known = dict(COLUMNS)
+    wanted = tuple(known) if columns is None else tuple(columns)
+    unknown = [c for c in wanted if c not in known]
+    if unknown or not wanted:
+        raise CageprintError(f"unknown column(s) {', '.join(unknown) or '(none given)'}; "
+                             f"columns: {', '.join(known)}")
+    chosen = [(name, listed if name == "isomer" else known[name]) for name in wanted]
 
     def _rows():
-        yield [name for name, _ in columns]
+        yield [name for name, _ in chosen]
         for cage in iter_isomers(n, ipr=ipr, progress=progress):
-            yield [fn(cage) for _, fn in columns]
+            yield [fn(cage) for _, fn in chosen]
 
     return _rows()
 
@@ -81,12 +96,20 @@ def add_parser(subparsers) -> argparse.ArgumentParser:
     p.add_argument(
         "--progress", action="store_true", help="show a progress bar on standard error"
     )
+    p.add_argument(
+        "--columns", default=",".join(CAGE_COLUMNS), metavar="LIST",
+        help="comma-separated columns, or 'all' (default: the cages alone, "
+        f"{','.join(CAGE_COLUMNS)}; fingerprint columns such as point_group, nmr_pattern, "
+        "ir_active, gap_beta compute each cage's fingerprint)",
+    )
     return p
 
 
 def run(args: argparse.Namespace) -> int:
     out = sys.stdout
-    it = rows(args.n, ipr=args.ipr, progress=args.progress)
+    cols = None if args.columns.strip() == "all" else tuple(
+        c.strip() for c in args.columns.split(",") if c.strip())
+    it = rows(args.n, ipr=args.ipr, progress=args.progress, columns=cols)
     header = next(it)
     if args.csv:
         w = csv.writer(out, lineterminator="\n")
@@ -94,8 +117,7 @@ def run(args: argparse.Namespace) -> int:
         for row in it:
             w.writerow(row)
         return 0
-    widths = [max(len(h), 8) for h in header]
-    widths[2] = max(widths[2], 40)
+    widths = [max(len(h), 8) if h != "spiral" else 40 for h in header]
     fmt = "  ".join(f"{{:<{w}}}" for w in widths[:-1]) + "  {}"
     out.write(fmt.format(*header).rstrip() + "\n")
     count = 0
