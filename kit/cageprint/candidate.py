@@ -110,14 +110,22 @@ class Candidate:
     @classmethod
     def from_cage(cls, cage: Cage, fingerprint_: Fingerprint | None = None, *,
                   charge: int = 0, formula: str | None = None,
-                  extra: Mapping[str, Any] | None = None) -> Candidate:
+                  extra: Mapping[str, Any] | None = None,
+                  numbering: str = "literature") -> Candidate:
         """Build a candidate from a :class:`cageprint.cage.Cage` and its fingerprint.
 
         The fingerprint defaults to ``cageprint.symmetry.fingerprint(cage, charge)``.
+        ``numbering`` says which list the isomer number counts in: ``"all"`` (every
+        isomer), ``"ipr"`` (IPR isomers; the cage must be IPR) or ``"literature"``
+        (the IPR number for an IPR cage, else the all-isomer number).  A list of
+        candidates must use one kind throughout.
         """
         fp = fingerprint(cage, charge=charge) if fingerprint_ is None else fingerprint_
+        if numbering not in ("all", "ipr", "literature"):
+            raise ValueError(f"numbering={numbering!r}; use 'all', 'ipr' or 'literature'")
+        number = cage.isomer_all if numbering == "all" else cage.isomer
         return cls.from_fingerprint(
-            fp, n=int(cage.n), isomer=int(cage.isomer or 0),
+            fp, n=int(cage.n), isomer=int(number or 0),
             formula=formula or cage.formula, spiral=cage.spiral, cage_charge=charge,
             extra=extra,
         )

@@ -256,6 +256,10 @@ def _score(i: int, per: Mapping[str, Sequence[TechniqueVerdict]], w: Mapping[str
         if _ORDER[v.verdict] > _ORDER[worst]:
             worst = v.verdict
         reasons.extend(f"{short}: {s}" for s in v.reasons[:2])
+        # a mixture finding is always shown, wherever the row's reasons go (CSV, report, board)
+        reasons.extend(f"{short}: {s}" for s in v.reasons[2:]
+                       if "second component" in s and isinstance(v.details, Mapping)
+                       and v.details.get("second_component"))
     return _Scored(i, total, out, worst if labels else "no data", tuple(reasons))
 
 

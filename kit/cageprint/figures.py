@@ -140,6 +140,9 @@ def spectrum_figure(
     (['spectrum', 'peaks (1)'], 'reversed')
     """
     px, py = peak_arrays(peaks)
+    if spectrum.kind != "peaks" and px.size:
+        # picked heights are above the fitted baseline; the marker sits on the drawn curve
+        py = np.interp(px, np.asarray(spectrum.x, float), np.asarray(spectrum.y, float))
     fig = go.Figure(layout=_BASE_LAYOUT)
     tx, ty = trace_xy(spectrum)
     fig.add_scatter(x=tx, y=ty, mode="lines", name=name,
@@ -205,9 +208,10 @@ def level_figure(levels, title: str = "Hückel π levels", homo: float | None = 
                  lumo: float | None = None) -> go.Figure:
     """Energy-level diagram from ``(energy_beta, degeneracy, irrep, occupancy)`` tuples.
 
-    Energies are λ in units of β (E = α + λβ, β < 0), so λ is drawn downwards:
-    bonding levels (λ > 0) low on the page.  A ``g``-fold level is drawn as ``g``
-    short bars side by side; filled levels dark, empty ones light.
+    Energies are λ in units of β (E = α + λβ, β < 0): the y axis shows λ itself and
+    runs downwards, so bonding levels (λ > 0) sit low on the page and every tick, bar and
+    label reads the same λ.  A ``g``-fold level is drawn as ``g`` short bars side by
+    side; filled levels dark, empty ones light; HOMO and LUMO labels sit beside their bars.
 
     Examples
     --------
@@ -221,7 +225,7 @@ def level_figure(levels, title: str = "Hückel π levels", homo: float | None = 
         for j in range(deg):
             x0 = j - (deg - 1) / 2
             xs += [x0 - 0.35, x0 + 0.35, None]
-            ys += [-lam, -lam, None]
+            ys += [lam, lam, None]
         cols.append("#1b2a36" if occ else "#9fb3c2")
         text.append(f"{irrep or ''} λ={lam:.3f} ×{deg} occ {occ}")
     fig = go.Figure(layout=_BASE_LAYOUT)
@@ -234,9 +238,12 @@ def level_figure(levels, title: str = "Hückel π levels", homo: float | None = 
         start += n
     for val, label, shift in ((homo, "HOMO", -9), (lumo, "LUMO", 9)):
         if val is not None:  # HOMO label just below its level, LUMO just above (gap 0 too)
-            fig.add_annotation(x=4, y=-val, text=f"{label} λ={val:.3f}", showarrow=False,
-                               xanchor="left", yshift=shift)
+            width = max([(int(d) - 1) / 2 for lam, d, _i, _o in levels
+                         if abs(lam - val) < 1e-6] or [0.0])
+            fig.add_annotation(x=width + 0.45, y=val, text=f"{label} λ={val:.3f}",
+                               showarrow=False, xanchor="left", yshift=shift)
     fig.update_layout(title=title, yaxis_title="λ (units of β; bonding down)",
+                      yaxis=dict(autorange="reversed"),
                       xaxis=dict(visible=False, range=[-6, 8]), height=520,
                       meta={"cp": "levels"})
     return fig

@@ -109,8 +109,10 @@ def generate_candidates(formula: Formula, *, ipr: bool = True,
     for cage in iter_isomers(formula.cage_n, ipr=ipr, progress=progress):
         fp = fingerprint(cage, charge=formula.cage_charge)
         extra = {t.key: t.predict(cage, fp) for t in hooks if t.predict is not None}
+        # one numbering per list: IPR numbers in an IPR list, all-isomer numbers otherwise
         out.append(Candidate.from_cage(cage, fp, charge=formula.cage_charge,
-                                       formula=formula.text, extra=extra))
+                                       formula=formula.text, extra=extra,
+                                       numbering="ipr" if ipr else "all"))
     return tuple(out)
 
 

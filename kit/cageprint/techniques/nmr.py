@@ -448,11 +448,10 @@ def _second_component(sizes, logs, picks, values, ln_s, weights, *, unexplained,
     sub_logs = [logs[j] for j in unexplained]
     total = sum(weights)
     mine = sum(w for j, w in enumerate(weights) if picks[j] is not None)
-    best = None
-    n_left = len(unexplained)
+    best, n_left, own = None, len(unexplained), sorted(sizes)  # own: no second component
     for p_sizes, label in partners:
         # a partner must be able to explain the left-over lines with few flaws
-        if not (n_left - NMR_PARTNER_FLAWS <= len(p_sizes)
+        if sorted(p_sizes) == own or not (n_left - NMR_PARTNER_FLAWS <= len(p_sizes)
                 <= costs[1] * n_left + NMR_PARTNER_FLAWS):
             continue
         sub_cost, sub_picks, _v, sub_counts, sub_s = _fit(p_sizes, sub_logs, costs)

@@ -1,0 +1,116 @@
+"""One number per cage per list kind (issue 15, "All-isomer candidate lists mix numberings").
+
+Sources: C60 has 1,812 isomers and one IPR isomer, Ih, the last in spiral order; C78 has
+24,109 isomers and 5 IPR ones (Fowler & Manolopoulos, An Atlas of Fullerenes, 1995, from
+memory).  The spiral numbers of the C78 IPR cages (24105-24109) are the kit's own listing
+(`cageprint isomers 78`), which the candidate list must agree with.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from cageprint.cage import Cage, isomer_number, iter_isomers
+from cageprint.candidate import Candidate
+from cageprint.formula import parse_cage_formula
+from cageprint.session import generate_candidates
+
+C60_IH = (1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32)
+
+
+@pytest.mark.slow
+def test_all_isomer_list_of_c60_has_one_number_per_cage():
+    cands = generate_candidates(parse_cage_formula("C60"), ipr=False)
+    numbers = [c.isomer for c in cands]
+    assert sorted(numbers) == list(range(1, 1813))  # no two rows numbered 1
+    ih = [c for c in cands if c.point_group == "Ih"]
+    assert [c.isomer for c in ih] == [1812]
+    assert Cage.from_spiral(60, ih[0].spiral).fused_pentagon_pairs == 0
+    d5d = [c for c in cands if c.isomer == 1][0]
+    assert Cage.from_spiral(60, d5d.spiral).fused_pentagon_pairs == 20
+
+
+def test_ipr_cages_keep_their_all_isomer_number_in_an_all_isomer_list():
+    for cage in iter_isomers(78, ipr=True):
+        as_all = Candidate.from_cage(cage, numbering="all")
+        as_ipr = Candidate.from_cage(cage, numbering="ipr")
+        assert as_all.isomer == isomer_number(78, cage.spiral, ipr=False)
+        assert as_ipr.isomer == isomer_number(78, cage.spiral, ipr=True)
+    numbers = sorted(Candidate.from_cage(c, numbering="all").isomer
+                     for c in iter_isomers(78, ipr=True))
+    assert numbers == [24105, 24106, 24107, 24108, 24109]
+
+
+def test_cli_and_candidates_agree_on_c60_ih(capsys):
+    from cageprint.cli import main
+
+    assert main(["isomers", "60", "--csv"]) == 0
+    last = capsys.readouterr().out.splitlines()[-1].split(",")
+    assert last[1] == "1812" and last[2] == " ".join(map(str, C60_IH))
+    assert Candidate.from_cage(Cage.from_spiral(60, C60_IH), numbering="all").isomer == 1812
+
+
+def test_unknown_numbering_refused():
+    with pytest.raises(ValueError, match="numbering="):
+        Candidate.from_cage(Cage.from_spiral(60, C60_IH), numbering="atlas")
+
+
+def test_peak_markers_sit_on_the_drawn_spectrum():
+    # issue 15: "Notebook 04's record figure draws IR/Raman peak markers at baseline-corrected
+    # heights on the raw spectrum (a marker at 0.74 under a peak at 0.80)"
+    import numpy as np
+
+    from cageprint import figures
+    from cageprint.spectra import Spectrum
+
+    x = np.linspace(400, 1800, 1401)
+    y = 0.06 + 0.74 * np.exp(-0.5 * ((x - 1428.0) / 3.0) ** 2)
+    s = Spectrum(x, y, technique="ir", y_unit="absorbance")
+    fig = figures.spectrum_figure(s, peaks=([1428.0], [0.74]))
+    assert float(fig.data[1].y[0]) == pytest.approx(0.80, abs=1e-3)
+
+
+def test_level_labels_read_the_same_lambda_as_their_axis():
+    # issue 15: "Notebook 05's Hückel diagram labels 'HOMO λ=0.414' at y = -0.414 on an axis
+    # 'bonding down'; labels sit far from their levels"
+    from cageprint import figures
+
+    fig = figures.level_figure([(0.414, 3, "t1u", 6), (-0.139, 3, "t1g", 0)],
+                               homo=0.414, lumo=-0.139)
+    assert fig.layout.yaxis.autorange == "reversed"  # bonding (λ > 0) drawn low
+    homo = [a for a in fig.layout.annotations if a.text.startswith("HOMO")][0]
+    assert homo.y == pytest.approx(0.414)
+    assert set(fig.data[0].y) - {None} == {0.414}
+    assert homo.x < 2.0  # beside its three bars (they end at x = 1.35)
+
+
+def test_a_cage_is_not_its_own_second_component():
+    # issue 15: "Loading a C78 mixture into the C76 panel reports 'a second component: C76
+    # isomer 1' (the same isomer as the first)"; C76 D2 pattern 19x4 (from memory)
+    import numpy as np
+
+    from cageprint.techniques.nmr import NmrObservation, compare_nmr
+
+    rng = np.random.default_rng(3)
+    pos = np.sort(rng.uniform(130, 150, 38))
+    ints = [4.0 if k % 2 else 2.0 for k in range(38)]  # 19 full lines, 19 at half scale
+    obs = NmrObservation(tuple(pos), tuple(ints))
+    v = compare_nmr((4,) * 19, obs, partners=[((4,) * 19, "C76 isomer 1")])
+    assert "second_component" not in v.details or not v.details["second_component"]
+    assert not any("C76 isomer 1" in r for r in v.reasons)
+
+
+def test_mixture_finding_reaches_the_row_reasons():
+    # issue 15: "The mixture finding appears in the readable CLI output but not in the CSV
+    # reasons, the HTML report or the board's table"
+    from cageprint.evidence import TechniqueVerdict, rank
+
+    c = Candidate("C78", 78, 1, "D3", (6,) * 13, 30, 60, 0.3)
+    third = ("8 further lines (23 % of the intensity) fit a second component: C78 isomers "
+             "4, 5 (D3h) (5x12+3x6); a mixture is assumed.")
+    v = TechniqueVerdict("nmr", -3.0, "consistent",
+                         ("23 lines observed, 13 predicted (13x6).", "13 lines match.", third),
+                         {"second_component": {"label": "C78 isomers 4, 5 (D3h)"}})
+    ranking = rank([c], {"nmr": [v]})
+    assert any("second component" in r for r in ranking.rows[0].reasons)
+    assert "second component" in ranking.table()[0]["reasons"]  # the CSV column
