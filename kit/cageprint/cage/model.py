@@ -258,14 +258,14 @@ class Cage:
     def faces(self) -> tuple[tuple[int, ...], ...]:
         """Atoms of each face in cyclic order; faces in spiral order."""
         size, nxt, _ = self._windup
-        ow = self._owner
+        ow, nx_ = self._owner.tolist(), nxt.tolist()  # plain lists: a few hundred lookups
+        first = np.argmax(nxt >= 0, axis=1).tolist()
         out = []
-        for v in range(len(size)):
-            u = int(np.flatnonzero(nxt[v] >= 0)[0])
-            ring = []
-            for _ in range(int(size[v])):
-                ring.append(int(ow[v, u]))
-                u = int(nxt[v, u])
+        for v, k in enumerate(size.tolist()):
+            u, row, ring = first[v], nx_[v], []
+            for _ in range(k):
+                ring.append(ow[v][u])
+                u = row[u]
             out.append(tuple(ring))
         return tuple(out)
 

@@ -189,11 +189,20 @@ class StabilityIndices:
         return d
 
 
-def _incidence(faces, n: int) -> np.ndarray:
-    inc = np.zeros((n, len(faces)), dtype=np.int64)
-    for f, ring in enumerate(faces):
-        inc[list(ring), f] = 1
-    return inc
+def _face_adjacency(faces, n: int) -> np.ndarray:
+    # every bond lies on exactly two faces: sort the faces' bonds by atom pair, pair them up
+    sizes = np.fromiter((len(r) for r in faces), dtype=np.int64, count=len(faces))
+    a = np.fromiter((v for r in faces for v in r), dtype=np.int64, count=int(sizes.sum()))
+    starts = np.repeat(np.cumsum(sizes) - sizes, sizes)
+    pos = np.arange(len(a)) - starts
+    b = a[starts + (pos + 1) % np.repeat(sizes, sizes)]
+    face = np.repeat(np.arange(len(faces)), sizes)
+    order = np.argsort(np.minimum(a, b) * n + np.maximum(a, b), kind="stable")
+    f1, f2 = face[order[0::2]], face[order[1::2]]
+    adj = np.zeros((len(faces), len(faces)), dtype=bool)
+    adj[f1, f2] = True
+    adj[f2, f1] = True
+    return adj
 
 
 def pentagon_counts(faces, n: int) -> tuple[int, int, np.ndarray, np.ndarray, np.ndarray]:
@@ -209,14 +218,13 @@ def pentagon_counts(faces, n: int) -> tuple[int, int, np.ndarray, np.ndarray, np
     >>> pairs, triples, pk.tolist()
     (30, 20, [0, 0, 0, 0, 0, 12])
     """
-    inc = _incidence(faces, n)
-    shared = inc.T @ inc
-    adj = shared == 2
+    adj = _face_adjacency(faces, n)
     pent = np.array([len(r) == 5 for r in faces])
     pp = adj[np.ix_(pent, pent)]
     hh = adj[np.ix_(~pent, ~pent)]
     pairs = int(pp.sum() // 2)
-    triples = int(np.count_nonzero(inc[:, pent].sum(axis=1) == 3))
+    on_pent = np.bincount([v for r in faces if len(r) == 5 for v in r], minlength=n)
+    triples = int(np.count_nonzero(on_pent == 3))
     pk = np.bincount(pp.sum(axis=1), minlength=6)[:6]
     hk = np.bincount(hh.sum(axis=1), minlength=7)[:7]
     return pairs, triples, pk, hk, pent
@@ -236,7 +244,8 @@ def _ipsi(faces, pent: np.ndarray, vectors: np.ndarray, n: int) -> float:
     x = vectors[:, 1:4]
     norm = np.linalg.norm(x, axis=1, keepdims=True)
     x = x / np.where(norm > 0, norm, 1.0) * (C60_RADIUS * math.sqrt(n / 60.0))
-    centres = np.array([x[list(r)].mean(axis=0) for r, p in zip(faces, pent, strict=True) if p])
+    rings = np.array([r for r, p in zip(faces, pent, strict=True) if p], dtype=np.int64)
+    centres = x[rings].mean(axis=1)
     d = np.linalg.norm(centres[:, None, :] - centres[None, :, :], axis=2)
     iu = np.triu_indices(len(centres), 1)
     dist = d[iu]
