@@ -16,9 +16,13 @@ $(STAMP): pyproject.toml
 	$(BIN)/python -m pip install --quiet -e ".[notebook,test,dev]"
 	touch $(STAMP)
 
+# in a container one is often root: JupyterLab then needs --allow-root; the settings
+# override (also Binder's) keeps news and update pop-ups off the notebook
 lab: $(STAMP)
 	$(BIN)/python -m cageprint demo --ensure
-	$(BIN)/jupyter lab notebooks/00-start-here.ipynb
+	mkdir -p $(VENV)/share/jupyter/lab/settings
+	cp binder/overrides.json $(VENV)/share/jupyter/lab/settings/overrides.json
+	$(BIN)/jupyter lab $(if $(filter 0,$(shell id -u)),--allow-root) notebooks/00-start-here.ipynb
 
 # The browser test needs a Chromium; on Debian as root it is installed here
 # (apt-get install chromium); elsewhere the browser test is skipped with a reason.
