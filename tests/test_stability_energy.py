@@ -113,3 +113,37 @@ def test_c84_isomers_22_and_23_lowest_of_24_by_gfn2():
     rows = s.ranking.rows
     assert {rows[0].candidate.isomer, rows[1].candidate.isomer} == {22, 23}
     assert any("GFN2-xTB" in r for r in rows[0].reasons)
+
+
+def test_cascade_model_needs_a_placeable_cluster(tmp_path):
+    # refused before any work: Y2C2 is not a cluster the kit places (common practice, no source)
+    from cageprint.errors import LibraryError
+    from cageprint.library.screen import cascade
+
+    with pytest.raises(LibraryError, match="no cluster the kit can place"):
+        cascade("Y2C2@C82", model="cluster", path=tmp_path / "x.duckdb", progress=False)
+    with pytest.raises(LibraryError, match="expected 'stepwise'"):
+        cascade("Sc3N@C68", model="guess", path=tmp_path / "x.duckdb", progress=False)
+
+
+@pytest.mark.slow
+def test_stepwise_cascade_ranks_by_the_cluster_step_and_resumes(tmp_path):
+    # the stepwise plumbing on a small case, Ca@C44 (89 cages): the 3 best by the index
+    # estimate relaxed as dianions, those within the window again with Ca inside (started
+    # from the relaxed dianion cage); the cluster energies rank them; a rerun computes
+    # nothing (common practice, no source)
+    from cageprint.library.screen import cascade
+
+    path = tmp_path / "c44.duckdb"
+    r = cascade("Ca@C44", shortlist=3, path=path, workers=0, window=1e6, progress=False)
+    assert r.charge == -2 and r.candidates == 89 and len(r.rows) == 3
+    assert all(row.anion_kjmol is not None for row in r.rows)
+    assert all(row.cluster_kjmol is not None for row in r.rows)
+    assert [row.energy_kjmol for row in r.rows] == sorted(row.cluster_kjmol for row in r.rows)
+    assert r.rows[0].energy_kjmol == 0.0 and "then GFN2-xTB + Ca" in r.method
+    assert "with cluster" in r.summary()
+    again = cascade("Ca@C44", shortlist=3, path=path, workers=0, window=1e6, progress=False)
+    assert again.energy_cpu_seconds == 0.0 and again.rows == r.rows
+    # a window of 0 keeps only the lowest anion for the cluster step
+    narrow = cascade("Ca@C44", shortlist=3, path=path, workers=0, window=0.0, progress=False)
+    assert sum(row.cluster_kjmol is not None for row in narrow.rows) == 1

@@ -26,6 +26,7 @@ __all__ = [
     "library_cages",
     "library_indices",
     "library_energies",
+    "library_geometries",
     "library_info",
     "library_candidates",
     "PAIRS_MEMO",
@@ -227,6 +228,28 @@ def library_energies(n: int, charge: int = 0, method: str = "GFN2-xTB", path=Non
     if spirals is not None:
         keys = {spiral_key(s) for s in spirals}
         out = {k: v for k, v in out.items() if k in keys}
+    return out
+
+
+def library_geometries(n: int, charge: int = 0, method: str = "GFN2-xTB", path=None,
+                       spirals=None) -> dict[str, Any]:
+    """Relaxed coordinates (Å, an (atoms, 3) array) of stored converged results."""
+    import numpy as np
+
+    con = _connect(path)
+    try:
+        rows = con.execute("SELECT spiral_key, xyz FROM energies WHERE n = ? AND charge = ? "
+                           "AND method = ? AND converged AND xyz IS NOT NULL",
+                           [int(n), int(charge), method]).fetchall()
+    finally:
+        con.close()
+    keys = None if spirals is None else {spiral_key(s) for s in spirals}
+    out = {}
+    for k, text in rows:
+        if keys is None or k in keys:
+            lines = text.splitlines()
+            out[k] = np.array([[float(v) for v in ln.split()[1:4]]
+                               for ln in lines[2: 2 + int(lines[0])]])
     return out
 
 

@@ -284,13 +284,16 @@ def relax_cage(cage, *, charge: int = 0, method: str = "GFN2-xTB", grad_tol: flo
 
 def relax_endohedral(cage, formula: str, *, method: str = "GFN2-xTB",
                      grad_tol: float = GRAD_TOL, max_steps: int = MAX_STEPS,
-                     strict: bool = True) -> EnergyResult:
+                     strict: bool = True, coords=None) -> EnergyResult:
     """Relax the cage with its cluster inside (M3N or one metal; :mod:`.endohedral`).
+
+    ``coords`` (Å) start the cage from a given geometry, e.g. its relaxed anion
+    (default: the kit's symmetric model geometry).
 
     The whole molecule is neutral; electrons are paired when their number is
     even, else one is unpaired.
     """
-    numbers, x0 = place_cluster(cage, formula)
+    numbers, x0 = place_cluster(cage, formula, coords)
     uhf = int(sum(numbers)) % 2
     out = relax_atoms(numbers, x0, charge=0, uhf=uhf, method=method, grad_tol=grad_tol,
                       max_steps=max_steps, label=f"{formula} isomer {_isomer(cage)}")
