@@ -145,6 +145,28 @@ def test_shared_copies_open_without_kernel_or_internet(runs, name):
 
 
 @pytest.mark.slow
+@pytest.mark.parametrize("name", NOTEBOOKS)
+def test_few_lines_of_code_before_the_first_result(runs, name):
+    # issue 15: "each template notebook opens with plumbing (imports from six modules, a
+    # renderer line, demo set-up)". The code cells before the first one that shows something
+    # hold at most 6 lines, the parameters cell aside (comment and blank lines not counted)
+    nb = nbformat.read(_run(runs, name).notebook, as_version=4)
+    lines = 0
+    for cell in nb.cells:
+        if cell.cell_type != "code" or "parameters" in cell.metadata.get("tags", []) \
+                or "injected-parameters" in cell.metadata.get("tags", []):
+            continue
+        if cell.get("outputs"):
+            break
+        lines += sum(1 for ln in cell.source.splitlines()
+                     if ln.strip() and not ln.strip().startswith("#"))
+    assert lines <= 6, f"{name}: {lines} lines of code before the first result"
+    first = next(c for c in nb.cells if c.cell_type == "code"
+                 and "parameters" not in c.metadata.get("tags", []))
+    assert "cpw.setup(" in first.source  # one explicit set-up call
+
+
+@pytest.mark.slow
 def test_nmr_notebook_on_the_mixture_fraction(tmp_path, truth):
     # the same template on other inputs, as `cageprint run-notebooks --param` does
     frac = truth["fractions"]["C"]

@@ -237,6 +237,17 @@ def test_board_export_failure_is_shown(session, tmp_path):
     assert "Export failed, nothing was overwritten" in board.problem.message
 
 
+def test_board_old_written_line_goes_when_a_new_export_fails(session, tmp_path):
+    # issue 15: "an old 'written:' line stays above a new error"
+    board = AssignmentBoard(session, out_dir=tmp_path / "out", name="frac-x")
+    assert board.export() is not None and "written:" in board.exported.value
+    blocker = tmp_path / "taken"
+    blocker.write_text("a file where the output folder should be")
+    board.out_dir = blocker / "sub"
+    assert board.export() is None
+    assert board.exported.value == "" and "Export failed" in board.problem.message
+
+
 def test_a_peak_list_is_drawn_as_sticks_and_counted():
     s = Session()
     s.set_candidates(CANDIDATES)

@@ -114,3 +114,46 @@ def test_mixture_finding_reaches_the_row_reasons():
     ranking = rank([c], {"nmr": [v]})
     assert any("second component" in r for r in ranking.rows[0].reasons)
     assert "second component" in ranking.table()[0]["reasons"]  # the CSV column
+
+
+@pytest.mark.parametrize(("n", "ipr", "orbit_count"), [(76, True, 19), (84, False, 84)])
+def test_cage_views_give_every_orbit_its_own_colour_and_marker(n, ipr, orbit_count):
+    # issue 15: "the cage view colours orbits from a 10-colour cycle: 19-orbit cages repeat
+    # colours; 84 one-carbon orbits are hopeless". The D2 C76 cage (19 orbits) and a C1 C84
+    # with 84: every (colour, marker) pair is distinct in the 3D view and in the flat
+    # projection, and hovering names the orbit (common practice, no source)
+    from cageprint.symmetry import fingerprint
+    from cageprint.widgets.cageview import cage_figures
+
+    cage = next(c for c in iter_isomers(n, ipr=ipr)
+                if len(fingerprint(c).nmr.orbits) == orbit_count)
+    for fig in cage_figures(Candidate.from_cage(cage, fingerprint(cage))):
+        pairs = [(t.marker.color, t.marker.symbol) for t in fig.data if t.name != "bonds"]
+        assert len(pairs) == orbit_count and len(set(pairs)) == orbit_count
+        hover = [t.hovertext[0] for t in fig.data if t.name != "bonds"]
+        assert hover[0].endswith(f"orbit 1 of {orbit_count} · "
+                                 f"{len(fingerprint(cage).nmr.orbits[0])} C, one 13C line")
+
+
+def test_unknown_format_error_says_what_to_do_in_words(tmp_path):
+    # issue 15: errors said "pass format= one of ..." (common practice, no source)
+    from cageprint.errors import SpectrumFormatError
+    from cageprint.spectra import load_spectrum
+
+    p = tmp_path / "unknown.xyz"
+    p.write_bytes(b"abc def\nghi\n")
+    with pytest.raises(SpectrumFormatError) as info:
+        load_spectrum(p)
+    msg = str(info.value)
+    assert "pass format=" not in msg and "export it as JCAMP-DX or two-column CSV" in msg
+
+
+def test_beta_written_one_way_in_what_the_user_reads():
+    # issue 15: "|beta|" beside "|β|" (common practice, no source)
+    import dataclasses
+
+    from cageprint.techniques import electronic, thresholds
+
+    assert "|beta|" not in electronic.CAVEAT and "|β|" in electronic.CAVEAT
+    helps = [f.metadata["setting"].help for f in dataclasses.fields(thresholds.UvVisSettings)]
+    assert any("|β|" in h for h in helps) and not any("|beta|" in h for h in helps)

@@ -22,6 +22,8 @@ import plotly.graph_objects as go
 __all__ = [
     "PALETTE",
     "orbit_colours",
+    "orbit_styles",
+    "ORBIT_SYMBOLS",
     "spectrum_figure",
     "stick_figure",
     "level_figure",
@@ -57,6 +59,44 @@ def orbit_colours(k: int) -> list[str]:
     ['#2a6f97', '#e07a1f']
     """
     return [PALETTE[i % len(PALETTE)] for i in range(k)]
+
+
+#: marker shapes that render in 3D and 2D plotly traces alike; a shape block per orbit size
+ORBIT_SYMBOLS: tuple[str, ...] = ("circle", "diamond", "square", "cross", "x", "circle-open",
+                                  "diamond-open", "square-open")
+
+
+def orbit_styles(orbits: Sequence[Sequence[int]]) -> list[tuple[str, str]]:
+    """A (colour, marker) pair per orbit, no two alike for up to 128 orbits.
+
+    Orbits of one size share a marker shape (a new shape every 16 orbits of that
+    size) and differ in colour, so the size class reads from the shape; when the
+    size classes need more than the 8 shapes, pairs run through the shapes in
+    orbit order instead (still distinct up to 16 x 8 = 128 orbits, enough for a
+    C1 cage of 100 atoms).
+
+    Examples
+    --------
+    >>> orbit_styles([(0, 1), (2,), (3, 4)])
+    [('#2a6f97', 'circle'), ('#2a6f97', 'diamond'), ('#e07a1f', 'circle')]
+    """
+    k = len(PALETTE)
+    sizes = sorted({len(o) for o in orbits}, reverse=True)
+    counts = {s: sum(len(o) == s for o in orbits) for s in sizes}
+    blocks, start = {}, 0
+    for s in sizes:
+        blocks[s] = start
+        start += -(-counts[s] // k)
+    seen: dict[int, int] = {}
+    out = []
+    for i, o in enumerate(orbits):
+        if start <= len(ORBIT_SYMBOLS):
+            j = seen.get(len(o), 0)
+            seen[len(o)] = j + 1
+            out.append((PALETTE[j % k], ORBIT_SYMBOLS[blocks[len(o)] + j // k]))
+        else:
+            out.append((PALETTE[i % k], ORBIT_SYMBOLS[(i // k) % len(ORBIT_SYMBOLS)]))
+    return out
 
 
 def peak_arrays(peaks: Any) -> tuple[np.ndarray, np.ndarray]:
@@ -264,6 +304,12 @@ def _orbit_label(k: int, orbit: Sequence[int]) -> str:
     return f"orbit {k + 1}: {len(orbit)} C"
 
 
+def _orbit_hover(k: int, orbit: Sequence[int], total: int) -> list[str]:
+    # every atom says its orbit and the orbit's size: one orbit, one 13C line of that intensity
+    return [f"C{i + 1} · orbit {k + 1} of {total} · {len(orbit)} C, one 13C line"
+            for i in orbit]
+
+
 def cage3d_figure(xyz, bonds, orbits: Sequence[Sequence[int]], title: str = "") -> go.Figure:
     """The cage in 3D with its carbon orbits coloured; legend = orbit sizes.
 
@@ -279,11 +325,11 @@ def cage3d_figure(xyz, bonds, orbits: Sequence[Sequence[int]], title: str = "") 
     fig = go.Figure(layout=_BASE_LAYOUT)
     fig.add_scatter3d(x=lx, y=ly, z=lz, mode="lines", name="bonds", hoverinfo="skip",
                       line=dict(color="#8a969e", width=3), showlegend=False)
-    for k, (orb, col) in enumerate(zip(orbits, orbit_colours(len(orbits)), strict=True)):
+    for k, (orb, (col, sym)) in enumerate(zip(orbits, orbit_styles(orbits), strict=True)):
         idx = np.asarray(orb, int)
         fig.add_scatter3d(x=xyz[idx, 0], y=xyz[idx, 1], z=xyz[idx, 2], mode="markers",
-                          name=_orbit_label(k, orb), marker=dict(size=5, color=col),
-                          hovertext=[f"C{i + 1} · orbit {k + 1}" for i in idx], hoverinfo="text")
+                          name=_orbit_label(k, orb), marker=dict(size=5, color=col, symbol=sym),
+                          hovertext=_orbit_hover(k, orb, len(orbits)), hoverinfo="text")
     axis = dict(visible=False)
     fig.update_layout(title=title, height=480, meta={"cp": "cage3d"},
                       scene=dict(xaxis=axis, yaxis=axis, zaxis=axis, aspectmode="data"),
@@ -305,11 +351,12 @@ def schlegel_figure(xy, bonds, orbits: Sequence[Sequence[int]], title: str = "")
     fig = go.Figure(layout=_BASE_LAYOUT)
     fig.add_scatter(x=lx, y=ly, mode="lines", line=dict(color="#8a969e", width=1.2),
                     hoverinfo="skip", showlegend=False, name="bonds")
-    for k, (orb, col) in enumerate(zip(orbits, orbit_colours(len(orbits)), strict=True)):
+    for k, (orb, (col, sym)) in enumerate(zip(orbits, orbit_styles(orbits), strict=True)):
         idx = np.asarray(orb, int)
         fig.add_scatter(x=xy[idx, 0], y=xy[idx, 1], mode="markers", name=_orbit_label(k, orb),
-                        marker=dict(size=8, color=col, line=dict(width=0.5, color="white")),
-                        hovertext=[f"C{i + 1} · orbit {k + 1}" for i in idx], hoverinfo="text")
+                        marker=dict(size=8, color=col, symbol=sym,
+                                    line=dict(width=0.5, color="white")),
+                        hovertext=_orbit_hover(k, orb, len(orbits)), hoverinfo="text")
     fig.update_layout(title=title, height=480, meta={"cp": "schlegel"},
                       xaxis=dict(visible=False), legend=dict(title="carbon orbits"),
                       yaxis=dict(visible=False, scaleanchor="x", scaleratio=1))

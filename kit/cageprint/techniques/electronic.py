@@ -51,7 +51,7 @@ UV_ONSET_FRACTION = 0.01
 UV_MAX_COST = 4.0
 UV_SNR = 5.0
 
-CAVEAT = (f"qualitative: Hückel gap turned into eV with |beta| = {HUCKEL_BETA_EV} eV "
+CAVEAT = (f"qualitative: Hückel gap turned into eV with |β| = {HUCKEL_BETA_EV} eV "
           "(assumed); the lowest excitation may be forbidden and solvent shifts the onset.")
 
 
@@ -213,7 +213,7 @@ def compare_uvvis(
     z = (e_obs - e_gap) / tol_ev
     cost = min(0.5 * z * z, max_cost)
     reasons = [
-        f"onset {observation.onset_nm:.0f} nm ({e_obs:.2f} eV); Hückel gap {gap:.3f} |beta| "
+        f"onset {observation.onset_nm:.0f} nm ({e_obs:.2f} eV); Hückel gap {gap:.3f} |β| "
         f"= {e_gap:.2f} eV.",
     ]
     details: dict[str, Any] = {"onset_ev": e_obs, "gap_beta": gap, "gap_ev": e_gap,

@@ -156,7 +156,7 @@ class UvVisSettings(Settings):
     snr: float = _snr(el.UV_SNR, "band")
     prominence: float | None = _prominence()
     beta_ev: float = setting(el.HUCKEL_BETA_EV, stage="compare", unit="eV", low=0.1, high=10.0,
-                             help="|beta| turning Hückel gaps into eV")
+                             help="|β| turning Hückel gaps into eV")
     tol_ev: float = setting(el.UV_TOL_EV, stage="compare", unit="eV", low=0.01, high=10.0,
                             help="one standard deviation of the gap-onset mismatch")
     max_cost: float = _cost(el.UV_MAX_COST, "most score UV-vis can take away")

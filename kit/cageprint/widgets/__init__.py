@@ -12,6 +12,7 @@ HTML table and a plain figure) that an executed notebook keeps.
 from __future__ import annotations
 
 from ._common import CONCLUSION_MIME, Problem, conclude, record, sync_figure
+from ._setup import setup, show
 from .board import AssignmentBoard, ranking_html, ranking_rows
 from .cageview import CageView, cage_figures
 from .chooser import CandidateChooser
@@ -19,6 +20,8 @@ from .compare import ComparisonPanel, predicted_count
 from .loader import SpectrumLoader
 
 __all__ = [
+    "setup",
+    "show",
     "SpectrumLoader",
     "CandidateChooser",
     "ComparisonPanel",

@@ -115,6 +115,7 @@ class AssignmentBoard:
             self.out_dir.mkdir(parents=True, exist_ok=True)
             _port.export(self.session, rec, rep)
         except Exception as exc:
+            self.exported.value = ""  # an older "written:" line must not sit above a new error
             self.problem.show(f"Export failed, nothing was overwritten: {exc}")
             return None
         self.problem.clear()

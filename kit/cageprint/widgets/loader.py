@@ -85,6 +85,13 @@ class SpectrumLoader:
         elif initial:
             self._initial_elsewhere(initial)
 
+    @classmethod
+    def for_file(cls, session: Session, path: str | os.PathLike, technique: str | None = None,
+                 plot: bool = True) -> SpectrumLoader:
+        """A loader over the folder of ``path``, with ``path`` loaded."""
+        p = pathlib.Path(path)
+        return cls(session, folder=p.parent, technique=technique, initial=p.name, plot=plot)
+
     def _initial_elsewhere(self, initial: str) -> None:
         """An initial file not in the list: read it if it exists, else say which and why."""
         path = self.folder / initial

@@ -168,7 +168,8 @@ def _choose_format(data: bytes, source: str, ext: str | None, fmt: str | None) -
     check_binary(data, source)
     raise SpectrumFormatError(
         "could not recognise the format (not JCAMP-DX, mzML or columns of numbers); "
-        f"pass format= one of {', '.join(sorted(READERS))}",
+        "export it as JCAMP-DX or two-column CSV, or name its format in Python "
+        f"(load_spectrum(path, format=...)) as one of: {', '.join(sorted(READERS))}",
         source,
     )
 
