@@ -120,7 +120,7 @@ def test_round_trip_and_frame():
     df = r.to_frame()
     assert list(df.columns[:5]) == ["rank", "formula", "isomer", "point_group", "score"]
     assert df["isomer"].tolist() == [1, 2]
-    assert df.loc[0, "reasons"] == "NMR: one NMR: two"
+    assert df.loc[0, "reasons"] == "NMR: One NMR: Two"
 
 
 def _mass_obs(*species):

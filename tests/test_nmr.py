@@ -101,7 +101,7 @@ def test_c78_c2v_reasons_name_the_half_intensity_lines():
     top = _first(rank_nmr(78, pos, ints))
     reasons = top.verdicts["nmr"].reasons
     assert reasons[0] == "21 lines observed, 21 predicted (18x4+3x2)."
-    assert "3 half-intensity lines match 3 of the 3 two-carbon orbits." in reasons
+    assert "Three half-intensity lines match all 3 two-carbon orbits." in reasons
 
 
 def _merge_two_add_impurity(pos, ints, seed):

@@ -112,7 +112,7 @@ def test_a_channel_judged_from_the_candidates_alone(channels):
     assert s.techniques_with_data() == ("gaprank",)   # always on: it needs no input
     r = s.ranking
     assert [row.candidate.isomer for row in r.top()] == [3]
-    assert r.rows[0].reasons == ("Gap: gap 0.2 |β|, the widest of 3.",)
+    assert r.rows[0].reasons == ("Gap: Gap 0.2 |β|, the widest of 3.",)
     s.set_candidates(CANDS[:2])                          # relative verdicts follow the set
     assert [row.candidate.isomer for row in s.ranking.top()] == [1]
     with pytest.raises(SessionError, match="takes no input"):

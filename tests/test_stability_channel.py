@@ -38,7 +38,7 @@ def test_sc3n_c80_alone_first():
     # widest hexaanion gap (Campanera, Bo & Poblet, Angew. Chem. Int. Ed. 2005)
     top = _alone_first(_session("Sc3N@C80"))
     assert (top.candidate.isomer, top.candidate.point_group) == (7, "Ih")
-    assert "Stability: anion gap 0.99 |β|, widest of 7" in top.reasons
+    assert "Stability: Anion gap 0.99 |β|, widest of 7" in top.reasons
 
 
 def test_sc3n_c78_alone_first():
@@ -145,7 +145,7 @@ def test_spectrum_tie_broken_by_stability():
     top = _alone_first(s)
     assert top.candidate.isomer == 6140
     assert top.verdicts["nmr"].verdict == rows[0].verdicts["nmr"].verdict
-    assert any(r.startswith("Stability: breaks the tie among the 11 cages with 13C pattern "
+    assert any(r.startswith("Stability: Breaks the tie among the 11 cages with 13C pattern "
                             "11x6+1x2") for r in top.reasons)
 
 

@@ -157,3 +157,42 @@ def test_beta_written_one_way_in_what_the_user_reads():
     assert "|beta|" not in electronic.CAVEAT and "|β|" in electronic.CAVEAT
     helps = [f.metadata["setting"].help for f in dataclasses.fields(thresholds.UvVisSettings)]
     assert any("|β|" in h for h in helps) and not any("|beta|" in h for h in helps)
+
+
+@pytest.fixture(scope="module")
+def sc3n_c80(tmp_path_factory):
+    # the demo's fraction D (Sc3N@C80, invented scenario): mass spectrum and 13C spectrum
+    from cageprint.demo import ensure_demo
+    from cageprint.session import Session
+
+    d = ensure_demo(tmp_path_factory.mktemp("demo") / "demo-data")
+    s = Session()
+    s.load("mass", d / "fraction-D-mass.csv")
+    s.load("nmr", d / "fraction-D-nmr.jdx")
+    s.set_candidates(ipr=True)
+    return s
+
+
+def test_reasons_read_as_sentences(sc3n_c80):
+    # issue 15: "reasons start in lower case", "1 1/6-intensity line matches 1 of the 1
+    # four-carbon orbits", "a 80-carbon cage" (common practice, no source)
+    reasons = sc3n_c80.ranking.rows[0].reasons
+    assert "MS: Mass spectrum shows Sc3N@C80: a C80 cage is present." in reasons
+    assert "NMR: One full-intensity line matches the one 60-carbon orbit." in reasons
+    assert all(r.split(": ", 1)[1][:1].isupper() or r.split(": ", 1)[1][:1].isdigit()
+               for r in reasons)
+
+
+def test_a_technique_at_weight_zero_says_it_is_not_counted(sc3n_c80):
+    # issue 15: "with the NMR weight at 0, all candidates tie 'same cage size' while their NMR
+    # column says 'ruled out'" (common practice, no source)
+    from cageprint.evidence import label
+    from cageprint.widgets import ranking_rows
+
+    sc3n_c80.set_weight("nmr", 0.0)
+    try:
+        ranking = sc3n_c80.ranking
+        words = {row[label("nmr")] for row in ranking_rows(ranking)}
+        assert words and all(w.endswith("(weight 0, not counted)") for w in words)
+    finally:
+        sc3n_c80.set_weight("nmr", 1.0)

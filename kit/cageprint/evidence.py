@@ -153,6 +153,14 @@ class Ranking:
         """The rows sharing rank 1 (empty when every candidate is ruled out)."""
         return tuple(r for r in self.rows if r.rank == 1 and not r.ruled_out)
 
+    def shown_verdict(self, row: RankedRow, technique: str) -> str:
+        """A technique's word for a row as tables show it: a technique at weight 0 counts
+        for nothing in the ranking, and its column says so beside its own word."""
+        word = row.verdicts[technique].verdict
+        if word != "no data" and not self.weights.get(technique, 1.0):
+            return f"{word} (weight 0, not counted)"
+        return word
+
     def row(self, isomer: int) -> RankedRow:
         for r in self.rows:
             if r.candidate.isomer == isomer:
@@ -239,6 +247,21 @@ class _Scored:
     reasons: tuple[str, ...]
 
 
+def _sentence(text: str) -> str:
+    """A reason as a sentence: first letter capitalised, unless the first word is a unit
+    or symbol that keeps its case (m/z, ppm, cm-1, eV).
+
+    Examples
+    --------
+    >>> _sentence("mass spectrum shows C60"), _sentence("m/z 720 found"), _sentence("13C")
+    ('Mass spectrum shows C60', 'm/z 720 found', '13C')
+    """
+    first = text.split(" ", 1)[0]
+    if not text[:1].islower() or first in ("ppm", "eV") or "/" in first or "-1" in first:
+        return text
+    return text[0].upper() + text[1:]
+
+
 def _score(i: int, per: Mapping[str, Sequence[TechniqueVerdict]], w: Mapping[str, float],
            labels: Mapping[str, str]) -> _Scored:
     """Weighted total, ruled-out flag, worst verdict and reasons of candidate ``i``.
@@ -255,9 +278,9 @@ def _score(i: int, per: Mapping[str, Sequence[TechniqueVerdict]], w: Mapping[str
         out = out or v.verdict == "ruled out"
         if _ORDER[v.verdict] > _ORDER[worst]:
             worst = v.verdict
-        reasons.extend(f"{short}: {s}" for s in v.reasons[:2])
+        reasons.extend(f"{short}: {_sentence(s)}" for s in v.reasons[:2])
         # a mixture finding is always shown, wherever the row's reasons go (CSV, report, board)
-        reasons.extend(f"{short}: {s}" for s in v.reasons[2:]
+        reasons.extend(f"{short}: {_sentence(s)}" for s in v.reasons[2:]
                        if "second component" in s and isinstance(v.details, Mapping)
                        and v.details.get("second_component"))
     return _Scored(i, total, out, worst if labels else "no data", tuple(reasons))

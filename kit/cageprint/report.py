@@ -419,7 +419,9 @@ def render_html(record: Mapping[str, Any], *, session: Any = None,
                    f"<td>{r.score:.2f}</td><td>{_e(r.verdict)}</td>")
         for t in ranking.techniques:
             v = r.verdicts[t]
-            cell = _e(v.verdict) if v.verdict == "no data" else f"{_e(v.verdict)} ({v.score:.2f})"
+            word = ranking.shown_verdict(r, t)
+            cell = _e(word) if word != v.verdict or word == "no data" \
+                else f"{_e(word)} ({v.score:.2f})"
             out.append(f"<td>{cell}</td>")
         why = " ".join(r.reasons)
         if r.tie_reason:

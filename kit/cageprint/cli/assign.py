@@ -162,8 +162,8 @@ def _print_table(session: Session, top: int, out: Any) -> None:
                  c.point_group, f"{r.score:.2f}" if abs(r.score) >= 0.005 else "0.00",
                  r.verdict, f"{r.share:.1%}"]
         for t in techs:
-            v = r.verdicts[t]
-            cells.append("-" if v.verdict == "no data" else v.verdict)
+            word = ranking.shown_verdict(r, t)
+            cells.append("-" if word == "no data" else word)
         rows.append(cells)
     widths = [max(len(h), *(len(row[i]) for row in rows)) if rows else len(h)
               for i, h in enumerate(head)]

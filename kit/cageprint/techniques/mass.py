@@ -561,10 +561,10 @@ def mass_verdict(candidate: Candidate, observation: MassObservation, *,
     if not mine:
         if any(sp.cage_n == n for sp in found):
             return TechniqueVerdict("mass", -6.0, "unlikely", (
-                f"mass spectrum shows {names}; a {n}-carbon cage appears only as a fragment "
+                f"mass spectrum shows {names}; a C{n} cage appears only as a fragment "
                 "ion.",), details)
         return TechniqueVerdict("mass", RULED_OUT_SCORE, "ruled out", (
-            f"mass spectrum shows {names}; none has a {n}-carbon cage.",), details)
+            f"mass spectrum shows {names}; none has a C{n} cage.",), details)
     charges = sorted({sp.cage_charge for sp in mine})
     if candidate.cage_charge not in charges:
         return TechniqueVerdict("mass", -6.0, "unlikely", (
@@ -574,7 +574,7 @@ def mass_verdict(candidate: Candidate, observation: MassObservation, *,
     strongest = max(sp.relative_abundance for sp in mine)
     if strongest < minor_abundance:
         return TechniqueVerdict("mass", -2.0, "possible", (
-            f"mass spectrum shows {names}; the {n}-carbon cage is a minor species "
+            f"mass spectrum shows {names}; the C{n} cage is a minor species "
             f"({100 * strongest:.0f} % of the strongest).",), details)
     return TechniqueVerdict("mass", 0.0, "consistent", (
-        f"mass spectrum shows {names}: a {n}-carbon cage is present.",), details)
+        f"mass spectrum shows {names}: a C{n} cage is present.",), details)

@@ -485,8 +485,7 @@ def _second_component(sizes, logs, picks, values, ln_s, weights, *, unexplained,
     return best
 
 
-_WORD = {1: "one", 2: "two", 3: "three", 4: "four", 5: "five", 6: "six", 10: "ten",
-         12: "twelve"}
+_WORD = {1: "one", 2: "two", 3: "three", 4: "four", 5: "five", 6: "six", 10: "ten", 12: "twelve"}
 
 
 def _intensity_word(v: int, top: int) -> str:
@@ -528,10 +527,12 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, tol
             single = sum(1 for k in picks if k is not None and sum(k) == 1 and k[i] == 1)
             if single == 0:
                 continue
-            word = _WORD.get(v, str(v))
-            reasons.append(f"{single} {_intensity_word(v, top)} line"
-                           f"{'s match' if single != 1 else ' matches'} {single} of the "
-                           f"{counts[i]} {word}-carbon orbits.")
+            word, many = _WORD.get(v, str(v)), _WORD.get(single, str(single)).capitalize()
+            whose = ("the one" if counts[i] == 1 else f"all {counts[i]}" if single == counts[i]
+                     else f"{single} of the {counts[i]}")
+            reasons.append(f"{many} {_intensity_word(v, top)} line"
+                           f"{'s match' if single != 1 else ' matches'} {whose} {word}-carbon "
+                           f"orbit{'s' if counts[i] != 1 else ''}.")
     for p, k in merged_lines:
         c = sum(ki * v for ki, v in zip(k, values, strict=True))
         reasons.append(f"the line at {p:.2f} ppm carries {sum(k)} orbits ({c} carbons; "

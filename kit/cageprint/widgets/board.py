@@ -27,8 +27,7 @@ def ranking_rows(ranking: Ranking, limit: int | None = None) -> list[dict[str, A
              "point group": c.point_group, "score": round(r.score, 2), "share": f"{r.share:.1%}",
              "verdict": r.verdict}
         for t in ranking.techniques:
-            v = r.verdicts[t]
-            d[label(t)] = v.verdict
+            d[label(t)] = ranking.shown_verdict(r, t)
         d["tie"] = r.tie_reason
         d["reasons"] = " ".join(r.reasons)
         rows.append(d)
