@@ -161,9 +161,19 @@ def test_few_lines_of_code_before_the_first_result(runs, name):
         lines += sum(1 for ln in cell.source.splitlines()
                      if ln.strip() and not ln.strip().startswith("#"))
     assert lines <= 6, f"{name}: {lines} lines of code before the first result"
-    first = next(c for c in nb.cells if c.cell_type == "code"
-                 and "parameters" not in c.metadata.get("tags", []))
+    first = next(c for c in nb.cells if c.cell_type == "code" and not {
+        "parameters", "injected-parameters"} & set(c.metadata.get("tags", [])))
     assert "cpw.setup(" in first.source  # one explicit set-up call
+
+
+@pytest.mark.slow
+def test_run_notebooks_keeps_exports_out_of_the_source_tree(runs):
+    # issue 15: "run-notebooks --out DIR also writes notebook 06's export into the source
+    # tree": OUT_DIR is set beside the executed copy unless the caller sets it
+    res = _run(runs, "06-assignment.ipynb")
+    exports = res.notebook.parent / "06-assignment-exports"
+    assert sorted(p.suffix for p in exports.iterdir()) == [".html", ".json"]
+    assert not (default_notebooks_dir() / "results").exists()
 
 
 @pytest.mark.slow

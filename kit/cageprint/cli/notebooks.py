@@ -134,6 +134,15 @@ def inject_parameters(nb, params: Mapping[str, object]) -> None:
     nb.cells.insert(idx + 1, cell)
 
 
+def _declares(nb, name: str) -> bool:
+    """True when the notebook's ``parameters`` cell assigns ``name``."""
+    for c in nb.cells:
+        if "parameters" in c.get("metadata", {}).get("tags", []):
+            return any(ln.split("=", 1)[0].strip() == name for ln in c.source.splitlines()
+                       if "=" in ln)
+    return False
+
+
 def _tidy_widget_outputs(nb) -> None:
     for cell in nb.cells:
         for out in cell.get("outputs", []):
@@ -203,9 +212,13 @@ def run_notebook(
         nb = nbformat.read(src, as_version=4)
     except Exception as exc:  # nbformat raises several unrelated types
         raise NotebookRunError(f"notebook {src.name!r}: not a readable .ipynb ({exc})") from exc
-    inject_parameters(nb, params or {})
     out = pathlib.Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
+    params = dict(params or {})
+    if "OUT_DIR" not in params and _declares(nb, "OUT_DIR"):
+        # a notebook's own exports go beside its executed copy, never into the source tree
+        params["OUT_DIR"] = str(out.resolve() / f"{src.stem}-exports")
+    inject_parameters(nb, params)
 
     old = os.environ.get("PLOTLY_RENDERER")
     os.environ["PLOTLY_RENDERER"] = PLOTLY_RENDERER  # kernels inherit the environment
