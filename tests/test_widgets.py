@@ -173,6 +173,33 @@ def test_upload_reads_bytes(tmp_path):
     assert set(s.spectra) == {"raman"}
 
 
+def test_a_technique_that_does_not_fit_puts_the_menu_back(tmp_path):
+    # issue 15: "switching technique on a file that does not fit leaves the dropdown on the
+    # wrong technique" (common practice, no source)
+    _write_ir_csv(tmp_path / "band.csv")
+    s = Session()
+    loader = SpectrumLoader(s, folder=tmp_path, technique="ir", initial="band.csv")
+    loader.technique.value = "nmr"  # x in cm-1 cannot be ppm
+    assert "does not fit a nmr spectrum" in loader.problem.message
+    assert loader.technique.value == "ir" and loader.spectrum.technique == "ir"
+    assert set(s.spectra) == {"ir"}
+    assert "does not fit" in loader.problem.message  # the reason stays on screen
+
+
+def test_an_upload_clears_the_file_menu_and_has_a_tooltip(tmp_path):
+    # issue 15: "after an upload the file dropdown still shows the old file"; "the upload
+    # tooltip reads 'null'" (common practice, no source)
+    _write_ir_csv(tmp_path / "first.csv")
+    _write_ir_csv(tmp_path / "up.csv", shift=2.0)
+    s = Session()
+    loader = SpectrumLoader(s, folder=tmp_path, technique="ir", initial="first.csv")
+    assert loader.file.value == "first.csv"
+    loader._on_upload({"new": ({"name": "mine.csv",
+                                "content": (tmp_path / "up.csv").read_bytes()},)})
+    assert loader.file.value == "" and loader.source == "mine.csv"
+    assert loader.upload.tooltip and "spectrum file" in loader.upload.tooltip
+
+
 def test_chooser_filters_sorts_and_picks(session):
     session.formula, session.ipr = "C76", True
     chooser = CandidateChooser(session, "C76", ipr=True)

@@ -53,6 +53,7 @@ class SpectrumLoader:
         self.source: str | None = None
         self._listeners: list = []
         self._read_from = None
+        self._reverting = False
         files = sorted(p.name for p in self.folder.iterdir()
                        if (p.is_file() and p.suffix.lower() in SPECTRUM_SUFFIXES)
                        or is_experiment_folder(p)) \
@@ -61,7 +62,9 @@ class SpectrumLoader:
                                layout=w.Layout(width="420px"))
         self.file.add_class("cp-file")
         self.upload = w.FileUpload(accept=",".join(SPECTRUM_SUFFIXES), multiple=False,
-                                   description="upload")
+                                   description="upload",
+                                   tooltip="Read a spectrum file from your computer "
+                                           "(JCAMP-DX, CSV, peak list, mzML, zipped raw NMR)")
         self.upload.add_class("cp-upload")
         opts = [(_AUTO, "")] + [(t.label, t.key) for t in registry.techniques()
                                 if t.needs_spectrum]
@@ -161,11 +164,19 @@ class SpectrumLoader:
         for item in change["new"] or ():
             content = item["content"] if isinstance(item, dict) else item.content
             name = item["name"] if isinstance(item, dict) else item.name
-            self.load(bytes(content), name=name)
+            if self.load(bytes(content), name=name):
+                self.file.value = ""  # the folder's file is no longer what is loaded
 
     def _on_technique(self, change) -> None:
-        if self._read_from is not None:
-            self.load(self._read_from, name=self.source)
+        if self._read_from is None or self._reverting:
+            return
+        if not self.load(self._read_from, name=self.source) and self.spectrum is not None:
+            # the file does not fit the new technique: the menu goes back to what is loaded
+            self._reverting = True
+            try:
+                self.technique.value = change["old"]
+            finally:
+                self._reverting = False
 
     def _on_processing(self) -> None:
         if self._read_from is not None:
