@@ -200,6 +200,17 @@ def test_an_upload_clears_the_file_menu_and_has_a_tooltip(tmp_path):
     assert loader.upload.tooltip and "spectrum file" in loader.upload.tooltip
 
 
+def test_panel_captions_and_controls_speak_words_with_units(session):
+    # issue 15: captions read like code ("prominence=None"); units missing on the region
+    # readout (common practice, no source)
+    panel = ComparisonPanel(session, "nmr")
+    cap = panel.settings_caption()
+    assert "=" not in cap and "min S/N: " in cap and "region: " in cap and " ppm" in cap
+    assert "prominence: none" in cap
+    labels = {c.name: c.widget.description for c in panel.controls.values()}
+    assert labels["region"] == "region (ppm)"
+
+
 def test_chooser_filters_sorts_and_picks(session):
     session.formula, session.ipr = "C76", True
     chooser = CandidateChooser(session, "C76", ipr=True)

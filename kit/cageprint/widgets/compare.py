@@ -16,7 +16,7 @@ from ..settings import Spec
 from ..techniques import registry
 from . import _port
 from ._common import Problem, boxed, figure_widget, record, sync_figure
-from .controls import SettingControl, build_controls
+from .controls import CAPTIONS, SettingControl, build_controls
 from .loader import SpectrumLoader
 
 
@@ -173,8 +173,12 @@ class ComparisonPanel:
         """The settings the session used for this observation, as the caption says them."""
         settings = self.session.settings(self.technique)
         specs = settings.specs()
-        return ", ".join(f"{name}={_fmt(getattr(settings, name), specs[name])}"
-                         for name in self.controls)
+        parts = []
+        for name in self.controls:
+            spec, value = specs[name], _fmt(getattr(settings, name), specs[name])
+            unit = f" {spec.unit}" if spec.unit and value != "none" else ""
+            parts.append(f"{CAPTIONS.get(name, name.replace('_', ' '))}: {value}{unit}")
+        return ", ".join(parts)
 
     def _table_html(self, ranking: Any, n_obs: int) -> str:
         picked = set(self.pick.value)

@@ -34,7 +34,9 @@ class SettingControl:
                  x_range: tuple[float, float] = (0.0, 1.0)):
         self.name, self.spec = name, spec
         self.switch: w.Checkbox | None = None
-        caption = CAPTIONS.get(name, name)
+        caption = CAPTIONS.get(name, name.replace("_", " "))
+        if spec.unit:  # the readout shows a number: its unit sits in the label
+            caption = f"{caption} ({spec.unit})"
         kind = spec.control
         if kind == "choices":
             self.widget = w.Dropdown(options=self._number_options(value), value=value,
