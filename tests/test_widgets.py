@@ -310,16 +310,16 @@ def test_chooser_fused_pentagon_filter_on_all_isomers():
 
 def test_panel_shows_the_threshold_the_session_used(session):
     # regression: with S/N 8 in the session, the dropdown showed 10 and the caption said
-    # snr=10 while the observation used 8
+    # snr=10 while the observation used 8 (the caption now says "min S/N: 8")
     session.set_threshold("nmr", "snr", 8)
     panel = ComparisonPanel(session, "nmr")
     assert panel.snr.value == 8.0 and ("8", 8.0) in panel.snr.options
     assert panel.observation.thresholds["snr"] == 8.0
     caption = re.search(r"<caption>(.*?)</caption>", panel.table.value).group(1)
-    assert "snr=8," in caption and "snr=10" not in caption
+    assert "min S/N: 8," in caption and "min S/N: 10" not in caption
     session.set_threshold("nmr", "snr", 20)  # changed elsewhere: the panel follows
     panel.update()
-    assert panel.snr.value == 20.0 and "snr=20," in panel.table.value
+    assert panel.snr.value == 20.0 and "min S/N: 20," in panel.table.value
     panel.snr.value = 50.0  # and the other way round
     assert session.settings("nmr").snr == 50.0
 
