@@ -75,11 +75,18 @@ def test_spectrum_figure_marks_peaks_and_draws_nmr_reversed():
     assert fig.layout.meta["cp"] == "spectrum" and len(fig.layout.shapes) == 1
 
 
-def test_stick_figure_draws_predictions_downwards():
+def test_stick_figure_gives_each_candidate_its_own_panel():
+    # issue 15: "the NMR stick record points down to -2 on an 'intensity' axis, its note is
+    # clipped, one candidate's sticks hide the other's" (common practice, no source)
     s = Spectrum([140, 145, 150], [0, 2, 0], technique="nmr")
-    fig = figures.stick_figure(s, {"a": ([141.0, 146.0], [1, 2])})
-    y = np.array(fig.data[2].y, float)
-    assert np.nanmin(y) == pytest.approx(-1.6) and np.nanmax(y) == 0
+    fig = figures.stick_figure(s, {"a": ([141.0, 146.0], [1, 2]), "b": ([143.0], [4])},
+                               note="sticks: estimated line order only")
+    ya, yb = (np.array(fig.data[k].y, float) for k in (2, 3))
+    assert np.nanmin(ya) == 0 and np.nanmax(ya) == 1 and np.nanmax(yb) == 1  # upwards, 0-1
+    assert (fig.data[2].yaxis, fig.data[3].yaxis) == ("y2", "y3")  # one panel each
+    assert fig.layout.yaxis2.title.text == "a" and fig.layout.yaxis3.title.text == "b"
+    assert "estimated line order only" in fig.layout.title.text  # under the title, not clipped
+    assert fig.layout.xaxis.autorange == "reversed"  # ppm decreasing, every panel shares it
 
 
 def test_level_figure_draws_each_degenerate_level():

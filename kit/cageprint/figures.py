@@ -213,34 +213,52 @@ def stick_figure(
     note: str = "",
     region: tuple[float, float] | None = None,
 ) -> go.Figure:
-    """Measured spectrum on top, one predicted stick spectrum per candidate below.
+    """Measured spectrum on top, each candidate's predicted sticks in its own panel below.
 
-    ``sticks`` maps a candidate label to ``(positions, relative intensities)``;
-    the sticks are drawn downwards so both stay readable on one x axis.
+    ``sticks`` maps a candidate label to ``(positions, relative intensities)``.  Every
+    panel shares the x axis; a candidate's sticks rise from zero to their intensity
+    relative to its largest (1 = the biggest orbit), so no candidate hides another.
+    ``note`` is printed under the title.
 
     Examples
     --------
     >>> from cageprint.spectra import Spectrum
     >>> s = Spectrum([140, 145, 150], [0, 1, 0], technique="nmr")
     >>> fig = stick_figure(s, {"C60 Ih": ([143.0], [1.0])})
-    >>> len(fig.data)
-    3
+    >>> len(fig.data), fig.layout.yaxis2.title.text
+    (3, 'C60 Ih')
     """
-    fig = spectrum_figure(spectrum, peaks, title=title, region=region)
-    ymax = float(np.max(np.abs(spectrum.y))) or 1.0
-    for k, (label, (pos, inten)) in enumerate(sticks.items()):
+    from plotly.subplots import make_subplots  # lazy: only this figure has panels
+
+    base = spectrum_figure(spectrum, peaks, title=title, region=region)
+    k = len(sticks)
+    fig = make_subplots(rows=1 + k, cols=1, shared_xaxes=True, vertical_spacing=0.03,
+                        row_heights=[0.55] + [0.45 / k] * k if k else [1.0])
+    fig.update_layout(_BASE_LAYOUT)
+    for t in base.data:
+        fig.add_trace(t, row=1, col=1)
+    fig.update_yaxes(title_text=base.layout.yaxis.title.text, row=1, col=1)
+    for row, (label, (pos, inten)) in enumerate(sticks.items(), start=2):
         pos = np.asarray(pos, float)
         inten = np.asarray(inten, float)
-        scale = ymax * 0.8 / (float(inten.max()) if inten.size and inten.max() > 0 else 1.0)
+        top = float(inten.max()) if inten.size and inten.max() > 0 else 1.0
         xs = np.repeat(pos, 3)
-        ys = np.column_stack([np.zeros_like(pos), -inten * scale, np.full_like(pos, np.nan)])
+        ys = np.column_stack([np.zeros_like(pos), inten / top, np.full_like(pos, np.nan)])
         fig.add_scatter(x=xs, y=ys.ravel(), mode="lines", name=f"predicted: {label}",
-                        line=dict(color=PALETTE[k % len(PALETTE)], width=2),
-                        connectgaps=False, hoverinfo="x+name")
+                        line=dict(color=PALETTE[(row - 2) % len(PALETTE)], width=2),
+                        connectgaps=False, hoverinfo="x+name", row=row, col=1)
+        fig.update_yaxes(title_text=label, range=[0, 1.1], tickvals=[0, 0.5, 1],
+                         title_font=dict(size=11), row=row, col=1)
+    xaxis = base.layout.xaxis
+    fig.update_xaxes(autorange=xaxis.autorange, range=xaxis.range)
+    fig.update_xaxes(title_text=xaxis.title.text, row=1 + k, col=1)
+    head = html.escape(str(base.layout.title.text or ""))
     if note:
-        fig.add_annotation(text=note, xref="paper", yref="paper", x=0, y=-0.22,
-                           showarrow=False, font=dict(size=11), align="left")
-    fig.update_layout(meta={"cp": "sticks"}, height=440)
+        head += f"<br><span style='font-size:11px'>{html.escape(note)}</span>"
+    fig.update_layout(title=dict(text=head), meta={"cp": "sticks"}, height=300 + 110 * k,
+                      showlegend=True, margin=dict(l=80, r=20, t=80 if note else 60, b=50),
+                      legend=dict(orientation="h", y=1.0, x=1, xanchor="right",
+                                  yanchor="bottom"))
     return fig
 
 
