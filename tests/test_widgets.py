@@ -211,6 +211,22 @@ def test_panel_captions_and_controls_speak_words_with_units(session):
     assert labels["region"] == "region (ppm)"
 
 
+def test_scores_are_explained_where_they_are_shown(session):
+    # issue 15: "scores ... explained only in the HTML report; a panel shows an unweighted
+    # score beside a weighted one in the table" (common practice, no source)
+    session.set_weight("nmr", 0.5)
+    try:
+        panel = ComparisonPanel(session, "nmr")
+        table = panel.table.value
+        assert "<th>weighted</th>" in table and "log-likelihood-like" in table
+        assert "weight, 0.5" in table
+        board = AssignmentBoard(session)
+        assert "log-likelihood-like" in board.table.value and "posterior share" in \
+            board.table.value
+    finally:
+        session.set_weight("nmr", 1.0)
+
+
 def test_chooser_filters_sorts_and_picks(session):
     session.formula, session.ipr = "C76", True
     chooser = CandidateChooser(session, "C76", ipr=True)

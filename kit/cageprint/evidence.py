@@ -55,6 +55,9 @@ __all__ = [
 #: candidates whose weighted totals differ by less than this (nats; a likelihood ratio
 #: below e**0.2 = 1.22) share a rank: "not separable with this evidence"
 TIE_TOL = 0.2
+#: how every table that shows scores explains them
+SCORE_NOTE = ("score: log-likelihood-like, 0 = fits as predicted, more negative = worse; "
+              "the ranking adds each technique's score times its weight")
 
 #: verdict word from the log-likelihood ratio to the best kept row: within 1.1 nats
 #: (ratio 3) "consistent", within 3.4 nats (ratio 30) "possible", else "unlikely"

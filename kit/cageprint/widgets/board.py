@@ -10,7 +10,7 @@ from typing import Any
 import ipywidgets as w
 
 from .. import figures
-from ..evidence import Ranking, label
+from ..evidence import SCORE_NOTE, Ranking, label
 from ..fileio import confined_path
 from ..session import Session
 from ..techniques import registry
@@ -41,9 +41,10 @@ def ranking_html(ranking: Ranking, limit: int | None = 50) -> str:
     top = ", ".join(f"{r.candidate.formula} {r.candidate.isomer}" for r in ranking.top())
     return figures.html_table(ranking_rows(ranking, limit), cols, name="ranking", key="key",
                               highlight=[r.candidate.isomer for r in ranking.top()],
-                              caption=f"rank 1: {top or 'none'}; weights " + ", ".join(
+                              caption=f"Rank 1: {top or 'none'}; weights " + ", ".join(
                                   f"{label(t)} {ranking.weights[t]:g}"
-                                  for t in ranking.techniques),
+                                  for t in ranking.techniques) + f". {SCORE_NOTE.capitalize()}; "
+                              "share: each candidate's posterior share among those kept",
                               max_rows=limit)
 
 

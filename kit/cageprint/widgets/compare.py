@@ -11,6 +11,7 @@ import numpy as np
 
 from .. import figures
 from ..errors import SessionError
+from ..evidence import SCORE_NOTE
 from ..session import Session
 from ..settings import Spec
 from ..techniques import registry
@@ -182,6 +183,7 @@ class ComparisonPanel:
 
     def _table_html(self, ranking: Any, n_obs: int) -> str:
         picked = set(self.pick.value)
+        weight = float(ranking.weights.get(self.technique, 1.0))
         rows = []
         for r in ranking.rows:
             c = r.candidate
@@ -194,13 +196,15 @@ class ComparisonPanel:
                 "predicted": self.tech.predicted(c), "observed": n_obs,
                 "verdict": v.verdict if v is not None else "", "score": round(v.score, 2)
                 if v is not None else None,
+                "weighted": round(v.score * weight, 2) if v is not None else None,
                 "why": " ".join(v.reasons) if v is not None else "",
             })
         body = figures.html_table(
             rows, ["candidate", "point group", "rank", "predicted", "observed", "verdict",
-                   "score", "why"], name="comparison", key="key",
+                   "score", "weighted", "why"], name="comparison", key="key",
             caption=f"{n_obs} {self.tech.observed_noun} observed with "
-                    + self.settings_caption())
+                    + self.settings_caption() + f". {SCORE_NOTE.capitalize()}; "
+                    f"weighted: times this technique's weight, {weight:g}")
         return body.replace('data-cp-table="comparison"',
                             f'data-cp-table="comparison" data-observed="{n_obs}"', 1)
 
