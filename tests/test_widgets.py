@@ -358,3 +358,25 @@ def test_missing_initial_file_names_the_file_not_a_trait_error(tmp_path):
     assert loader.problem.message == f"Could not read fraction-Z-ir.jdx in {tmp_path}: no such file"
     gone = SpectrumLoader(s, folder=tmp_path / "nope", technique="ir", initial="a.jdx")
     assert "a.jdx" in gone.problem.message and "the folder does not exist" in gone.problem.message
+
+
+def test_chooser_pages_through_every_isomer_and_sorts_all_of_them():
+    # issue 15: "'All isomers' renders every row as one HTML table ... C80 (31,924) or C84
+    # (51,592) would freeze the tab". C50, all 271 isomers: pages of MAX_ROWS rows, sorting
+    # and filtering act on every row, picks survive page turns, the caption names the
+    # numbering (common practice, no source)
+    from cageprint.widgets.chooser import MAX_ROWS
+
+    chooser = CandidateChooser(Session(), "C50", ipr=False)
+    assert len(chooser.rows) == 271 and f'data-rows="{MAX_ROWS}"' in chooser.table.value
+    assert "rows 1–200 of 271" in chooser.page_info.value and chooser.prev.disabled
+    assert "numbers of the all-isomer list" in chooser.table.value
+    chooser.pick.value = (3,)
+    chooser.turn(+1)
+    assert "rows 201–271 of 271" in chooser.page_info.value and chooser.next.disabled
+    assert 'data-rows="71"' in chooser.table.value and chooser.chosen == (3,)
+    assert 271 in [v for _, v in chooser.pick.options]  # this page's cages can be picked
+    chooser.sort.value = "point group order"  # a new order: back to the first page
+    assert chooser.page == 0
+    orders = [r["order"] for r in chooser.visible_rows()]
+    assert orders == sorted(orders, reverse=True) and len(orders) == 271

@@ -19,7 +19,7 @@ from ._common import Problem
 SORTS = {"isomer number": ("isomer", False), "point group order": ("order", True),
          "13C lines": ("lines", False), "IR bands": ("ir", False),
          "Raman bands": ("raman", False), "Hückel gap": ("gap", True)}
-#: at most this many rows are drawn (the filters narrow the rest)
+#: rows per page of the table (the filters and sort act on every row; pages turn through them)
 MAX_ROWS = 200
 _COLUMNS = ["isomer", "point group", "13C pattern", "lines", "IR", "Raman", "gap/|β|",
             "fused pentagons"]
@@ -77,6 +77,16 @@ class CandidateChooser:
         self.table = w.HTML()
         self.table.add_class("cp-candidates")
         self.rows: list[dict] = []
+        self._visible: list[dict] = []
+        self.page = 0
+        self.prev = w.Button(description="◀ previous", layout=w.Layout(width="120px"))
+        self.prev.add_class("cp-page-prev")
+        self.next = w.Button(description="next ▶", layout=w.Layout(width="120px"))
+        self.next.add_class("cp-page-next")
+        self.page_info = w.HTML()
+        self.page_info.add_class("cp-page-info")
+        self.prev.on_click(lambda _b: self.turn(-1))
+        self.next.on_click(lambda _b: self.turn(+1))
         self.building = w.Output()  # the library build's progress bar, while it runs
         self.building.add_class("cp-library-progress")
         self.formula.observe(self._regenerate, names=["value"])
@@ -85,7 +95,8 @@ class CandidateChooser:
             c.observe(self._redraw, names=["value"])
         self.ui = w.VBox([w.HBox([self.formula, self.ipr]),
                           w.HBox([self.point_group, self.fused, self.sort]),
-                          self.problem.widget, self.building, self.pick, self.table])
+                          self.problem.widget, self.building, self.pick,
+                          w.HBox([self.prev, self.page_info, self.next]), self.table])
         self.ui.add_class("cp-chooser")
         if self.formula.value:
             if session.candidates and session.formula == self.formula.value \
@@ -106,7 +117,10 @@ class CandidateChooser:
         try:
             self.session.set_formula(text)
             if self.library is None:
-                self.session.set_candidates(ipr=self.ipr.value)
+                with self.building:  # a progress bar while the list is computed
+                    self.building.clear_output()
+                    self.session.set_candidates(ipr=self.ipr.value, progress=True)
+                    self.building.clear_output()
             else:
                 path = None if self.library is True else self.library
                 with self.building:  # a missing size is built here, its progress bar shown
@@ -155,18 +169,44 @@ class CandidateChooser:
                                  r["isomer"]))
         return rows
 
+    def turn(self, step: int) -> None:
+        """Show the next (``+1``) or previous (``-1``) page of the filtered, sorted rows."""
+        last = max(0, (len(self._visible) - 1) // MAX_ROWS)
+        self.page = min(last, max(0, self.page + int(step)))
+        self._draw_page()
+
     def _redraw(self, change: Any) -> None:
-        rows = self.visible_rows()
-        if change is None or change["owner"] is not self.pick:
-            keep = [v for v in self.pick.value if any(r["isomer"] == v for r in rows)]
-            opts = [(f"{self.session.formula} {r['isomer']} ({r['point group']})", r["isomer"])
-                    for r in rows]
+        owner = None if change is None else change["owner"]
+        if owner is not self.pick:  # filters or sort changed: every row again, first page
+            self._visible = self.visible_rows()
+            self.page = 0
+        self._draw_page()
+
+    def _draw_page(self) -> None:
+        rows = self._visible
+        start = self.page * MAX_ROWS
+        shown = rows[start:start + MAX_ROWS]
+        # the picker offers this page's cages and keeps what was picked on other pages
+        picked = [v for v in self.pick.value if any(r["isomer"] == v for r in rows)]
+        on_page = {r["isomer"] for r in shown}
+        by_iso = {r["isomer"]: r for r in rows if r["isomer"] in on_page or r["isomer"] in picked}
+        order = [r["isomer"] for r in shown] + [v for v in picked if v not in on_page]
+        opts = [(f"{self.session.formula} {v} ({by_iso[v]['point group']})", v) for v in order]
+        if [o[1] for o in self.pick.options] != order or list(self.pick.value) != picked:
             self.pick.unobserve(self._redraw, names=["value"])
             self.pick.options = opts
-            self.pick.value = keep
+            self.pick.value = picked
             self.pick.observe(self._redraw, names=["value"])
         what = "IPR isomers" if self.session.ipr else "isomers"
+        numbering = "IPR" if self.session.ipr else "all-isomer"
+        end = start + len(shown)
+        self.prev.disabled = self.page == 0
+        self.next.disabled = end >= len(rows)
+        self.page_info.value = (f'<span class="cp-page" data-page="{self.page + 1}">'
+                                f"rows {start + 1 if shown else 0}–{end} of {len(rows)}</span>")
         self.table.value = figures.html_table(
-            rows, _COLUMNS, name="candidates", key="isomer", highlight=self.pick.value,
-            caption=f"{len(rows)} of {len(self.rows)} {what} of {self.session.formula}",
+            shown, _COLUMNS, name="candidates", key="isomer", highlight=self.pick.value,
+            caption=f"{len(rows)} of {len(self.rows)} {what} of {self.session.formula} "
+                    f"(numbers of the {numbering} list); rows {start + 1 if shown else 0}"
+                    f"–{end}",
             max_rows=MAX_ROWS)
