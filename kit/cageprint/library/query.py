@@ -12,6 +12,8 @@ from collections import Counter
 from pathlib import Path
 from typing import Any
 
+import numpy as np
+
 from ..candidate import Candidate
 from ..errors import LibraryError
 from ..formula import parse_cage_formula
@@ -234,8 +236,6 @@ def library_energies(n: int, charge: int = 0, method: str = "GFN2-xTB", path=Non
 def library_geometries(n: int, charge: int = 0, method: str = "GFN2-xTB", path=None,
                        spirals=None) -> dict[str, Any]:
     """Relaxed coordinates (Å, an (atoms, 3) array) of stored converged results."""
-    import numpy as np
-
     con = _connect(path)
     try:
         rows = con.execute("SELECT spiral_key, xyz FROM energies WHERE n = ? AND charge = ? "
