@@ -18,7 +18,27 @@ from .errors import EvidenceError
 from .plain import plain
 from .symmetry import ElectronicPrediction, Fingerprint, fingerprint
 
-__all__ = ["Candidate"]
+__all__ = ["Candidate", "Known", "PAIRS_MEMO"]
+
+#: key of a candidate's memo holding its fused-pentagon pair count (set where the cage is at
+#: hand: generation and the cage library), so tables need no cage graph per row
+PAIRS_MEMO = "pentagon_pairs"
+
+
+class Known:
+    """A memo filler returning a value already known (stored or computed with the cage).
+
+    Examples
+    --------
+    >>> Known(3)(None)
+    3
+    """
+
+    def __init__(self, value: Any) -> None:
+        self.value = value
+
+    def __call__(self, _candidate: Any) -> Any:
+        return self.value
 
 
 @dataclass(frozen=True)

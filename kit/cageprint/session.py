@@ -43,7 +43,7 @@ from typing import Any
 import numpy as np
 
 from .cage import iter_isomers
-from .candidate import Candidate
+from .candidate import PAIRS_MEMO, Candidate, Known
 from .errors import CageprintError, SessionError
 from .evidence import Ranking, rank
 from .formula import Formula, parse_cage_formula
@@ -110,9 +110,12 @@ def generate_candidates(formula: Formula, *, ipr: bool = True,
         fp = fingerprint(cage, charge=formula.cage_charge)
         extra = {t.key: t.predict(cage, fp) for t in hooks if t.predict is not None}
         # one numbering per list: IPR numbers in an IPR list, all-isomer numbers otherwise
-        out.append(Candidate.from_cage(cage, fp, charge=formula.cage_charge,
-                                       formula=formula.text, extra=extra,
-                                       numbering="ipr" if ipr else "all"))
+        cand = Candidate.from_cage(cage, fp, charge=formula.cage_charge,
+                                   formula=formula.text, extra=extra,
+                                   numbering="ipr" if ipr else "all")
+        # the cage is at hand: tables need not rebuild it for its fused-pentagon count
+        cand.memo(PAIRS_MEMO, Known(cage.fused_pentagon_pairs))
+        out.append(cand)
     return tuple(out)
 
 

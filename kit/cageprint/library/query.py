@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 
-from ..candidate import Candidate
+from ..candidate import PAIRS_MEMO, Candidate, Known
 from ..errors import LibraryError
 from ..formula import parse_cage_formula
 from ..stability.indices import StabilityIndices
@@ -41,8 +41,6 @@ SHOWN_COLUMNS = (
     "hexagon_index", "ipsi",
 )
 
-#: key of a candidate's memo holding its fused-pentagon pair count (filled from the library)
-PAIRS_MEMO = "pentagon_pairs"
 
 _TERM = re.compile(r"(\d+)\s*[x×*]\s*(\d+)")
 
@@ -75,16 +73,6 @@ def normalise_pattern(text: str) -> str:
 
 def _pattern_atoms(pattern: str) -> int:
     return sum(int(a) * int(b) for a, b in _TERM.findall(pattern))
-
-
-class _Stored:
-    """A memo filler that returns a stored value."""
-
-    def __init__(self, value: Any) -> None:
-        self.value = value
-
-    def __call__(self, _candidate: Candidate) -> Any:
-        return self.value
 
 
 def _connect(path):
@@ -315,6 +303,6 @@ def library_candidates(formula: str, ipr: bool = True, *, path=None, build: bool
             raman_count=int(r.raman_active), gap_beta=gap, cage_charge=q,
             spiral=tuple(int(v) for v in r.spiral.split()),
         )
-        c.memo(PAIRS_MEMO, _Stored(int(r.pentagon_pairs)))  # readers need no cage graph
+        c.memo(PAIRS_MEMO, Known(int(r.pentagon_pairs)))  # readers need no cage graph
         out.append(c)
     return tuple(out)
