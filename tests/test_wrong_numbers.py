@@ -229,3 +229,31 @@ def test_cli_and_chooser_agree_on_every_number_and_fused_count(n, capsys):
         for c in cands[:: max(1, count // 200)]:  # the count is the cage's own, re-derived
             assert Cage.from_spiral(n, c.spiral).fused_pentagon_pairs == cli[
                 " ".join(map(str, c.spiral))][1]
+
+
+@pytest.mark.parametrize(("n", "ipr", "orbit_count"), [(76, True, 19), (84, False, 84)])
+def test_orbits_sharing_a_shape_stay_apart_under_colour_vision_deficiency(n, ipr, orbit_count):
+    # issue 15: orbit colours "checked under a simulated colour-vision deficiency". Orbits
+    # drawn with the same marker shape differ by at least 10 CAM02-UCS units under normal
+    # vision and simulated deuteranomaly, protanomaly and tritanomaly at full severity
+    # (Machado, Oliveira & Fernandes, IEEE TVCG 2009, as implemented by colorspacious; the
+    # threshold of 10 is common practice, no source)
+    import itertools
+
+    from colorspacious import cspace_convert, deltaE
+
+    from cageprint.figures import orbit_styles
+    from cageprint.symmetry import fingerprint
+
+    cage = next(c for c in iter_isomers(n, ipr=ipr)
+                if len(fingerprint(c).nmr.orbits) == orbit_count)
+    for flat in (False, True):
+        styles = orbit_styles(fingerprint(cage).nmr.orbits, flat=flat)
+        rgb = {c: [int(c[i:i + 2], 16) / 255 for i in (1, 3, 5)] for c, _ in styles}
+        for cvd in (None, "deuteranomaly", "protanomaly", "tritanomaly"):
+            seen = {c: v if cvd is None else cspace_convert(
+                v, {"name": "sRGB1+CVD", "cvd_type": cvd, "severity": 100}, "sRGB1").clip(0, 1)
+                for c, v in rgb.items()}
+            for (c1, s1), (c2, s2) in itertools.combinations(styles, 2):
+                if s1 == s2:
+                    assert deltaE(seen[c1], seen[c2], input_space="sRGB1") >= 10, (cvd, c1, c2)

@@ -23,7 +23,9 @@ __all__ = [
     "PALETTE",
     "orbit_colours",
     "orbit_styles",
+    "ORBIT_PALETTE",
     "ORBIT_SYMBOLS",
+    "ORBIT_SYMBOLS_FLAT",
     "spectrum_figure",
     "stick_figure",
     "level_figure",
@@ -61,26 +63,41 @@ def orbit_colours(k: int) -> list[str]:
     return [PALETTE[i % len(PALETTE)] for i in range(k)]
 
 
-#: marker shapes that render in 3D and 2D plotly traces alike; a shape block per orbit size
+#: orbit colours, picked here by a greedy max-min search over a 9-level sRGB grid
+#: (CAM02-UCS lightness 30-72, chroma above 8): the smallest CAM02-UCS distance between any
+#: two is 12.2, under normal vision and under simulated deuteranomaly, protanomaly and
+#: tritanomaly at full severity (the Machado, Oliveira & Fernandes 2009 model)
+ORBIT_PALETTE: tuple[str, ...] = (
+    "#bf0060", "#9f9fff", "#bf9f00", "#4000ff", "#604000", "#ff609f", "#408000", "#00bfbf",
+    "#80609f", "#2080ff", "#800080", "#609f60", "#006040",
+)
+#: marker shapes of 3D traces (all that scatter3d has); a shape block per orbit size
 ORBIT_SYMBOLS: tuple[str, ...] = ("circle", "diamond", "square", "cross", "x", "circle-open",
                                   "diamond-open", "square-open")
+#: the same blocks in the flat view, filled throughout (an open marker there would take the
+#: white outline every marker has)
+ORBIT_SYMBOLS_FLAT: tuple[str, ...] = ORBIT_SYMBOLS[:5] + ("triangle-up", "star", "hexagon")
 
 
-def orbit_styles(orbits: Sequence[Sequence[int]]) -> list[tuple[str, str]]:
-    """A (colour, marker) pair per orbit, no two alike for up to 128 orbits.
+def orbit_styles(orbits: Sequence[Sequence[int]], flat: bool = False) -> list[tuple[str, str]]:
+    """A (colour, marker) pair per orbit, no two alike for up to 104 orbits.
 
-    Orbits of one size share a marker shape (a new shape every 16 orbits of that
-    size) and differ in colour, so the size class reads from the shape; when the
-    size classes need more than the 8 shapes, pairs run through the shapes in
-    orbit order instead (still distinct up to 16 x 8 = 128 orbits, enough for a
-    C1 cage of 100 atoms).
+    Orbits of one size share a marker shape (a new shape every 13 orbits of that
+    size) and differ in colour (:data:`ORBIT_PALETTE`, told apart under the common
+    colour-vision deficiencies too), so the size class reads from the shape; when
+    the size classes need more than the 8 shapes, pairs run through the shapes in
+    orbit order instead (still distinct up to 13 x 8 = 104 orbits, enough for a
+    C1 cage of 100 atoms).  ``flat`` takes the flat view's filled shapes
+    (:data:`ORBIT_SYMBOLS_FLAT`) in place of the 3D ones.
 
     Examples
     --------
     >>> orbit_styles([(0, 1), (2,), (3, 4)])
-    [('#2a6f97', 'circle'), ('#2a6f97', 'diamond'), ('#e07a1f', 'circle')]
+    [('#bf0060', 'circle'), ('#bf0060', 'diamond'), ('#9f9fff', 'circle')]
     """
-    k = len(PALETTE)
+    palette = ORBIT_PALETTE
+    k = len(palette)
+    shapes = ORBIT_SYMBOLS_FLAT if flat else ORBIT_SYMBOLS
     sizes = sorted({len(o) for o in orbits}, reverse=True)
     counts = {s: sum(len(o) == s for o in orbits) for s in sizes}
     blocks, start = {}, 0
@@ -93,9 +110,9 @@ def orbit_styles(orbits: Sequence[Sequence[int]]) -> list[tuple[str, str]]:
         if start <= len(ORBIT_SYMBOLS):
             j = seen.get(len(o), 0)
             seen[len(o)] = j + 1
-            out.append((PALETTE[j % k], ORBIT_SYMBOLS[blocks[len(o)] + j // k]))
+            out.append((palette[j % k], shapes[blocks[len(o)] + j // k]))
         else:
-            out.append((PALETTE[i % k], ORBIT_SYMBOLS[(i // k) % len(ORBIT_SYMBOLS)]))
+            out.append((palette[i % k], shapes[(i // k) % len(shapes)]))
     return out
 
 
@@ -369,7 +386,8 @@ def schlegel_figure(xy, bonds, orbits: Sequence[Sequence[int]], title: str = "")
     fig = go.Figure(layout=_BASE_LAYOUT)
     fig.add_scatter(x=lx, y=ly, mode="lines", line=dict(color="#8a969e", width=1.2),
                     hoverinfo="skip", showlegend=False, name="bonds")
-    for k, (orb, (col, sym)) in enumerate(zip(orbits, orbit_styles(orbits), strict=True)):
+    for k, (orb, (col, sym)) in enumerate(zip(orbits, orbit_styles(orbits, flat=True),
+                                              strict=True)):
         idx = np.asarray(orb, int)
         fig.add_scatter(x=xy[idx, 0], y=xy[idx, 1], mode="markers", name=_orbit_label(k, orb),
                         marker=dict(size=8, color=col, symbol=sym,

@@ -106,26 +106,44 @@ def lab(tmp_path_factory):
     log.close()
 
 
+def _shots() -> Path:
+    shots = ROOT / "test-artifacts"
+    shots.mkdir(exist_ok=True)
+    return shots
+
+
+def _context(p):
+    """A headless Chromium (the system one) with a fresh profile."""
+    return p.chromium.launch_persistent_context(
+        tempfile.mkdtemp(prefix="cp-chromium-"), executable_path=_chromium(), headless=True,
+        viewport={"width": 1400, "height": 1100}, args=CHROMIUM_ARGS)
+
+
+def _run_all(page, lab, name: str):
+    """Open a notebook of the lab in a fresh workspace, wait for its kernel, run every cell."""
+    from playwright.sync_api import expect
+
+    ws = f"e2e-{secrets.token_hex(4)}"
+    page.goto(f"{lab['url']}/lab/workspaces/{ws}/tree/{name}?reset&token={lab['token']}")
+    panel = page.locator(".jp-NotebookPanel:not(.lm-mod-hidden)")
+    panel.locator(".jp-Cell").first.wait_for(timeout=60_000)
+    expect(page.locator(".jp-StatusBar-TextItem",
+                        has_text=re.compile(r"\(ipykernel\) \| Idle"))).to_be_visible(
+        timeout=90_000)
+    page.locator(".lm-MenuBar-itemLabel", has_text="Run").first.click()
+    page.get_by_role("menuitem", name="Run All Cells", exact=True).click()
+    return panel
+
+
 def test_threshold_change_updates_the_comparison_table(lab):
     from playwright.sync_api import expect, sync_playwright
 
-    shots = ROOT / "test-artifacts"
-    shots.mkdir(exist_ok=True)
+    shots = _shots()
     with sync_playwright() as p:
-        ctx = p.chromium.launch_persistent_context(
-            tempfile.mkdtemp(prefix="cp-chromium-"), executable_path=_chromium(), headless=True,
-            viewport={"width": 1400, "height": 1100}, args=CHROMIUM_ARGS)
+        ctx = _context(p)
         page = ctx.new_page()
         try:
-            ws = f"e2e-{secrets.token_hex(4)}"
-            page.goto(f"{lab['url']}/lab/workspaces/{ws}/tree/{NOTEBOOK}?reset&token={lab['token']}")
-            panel = page.locator(".jp-NotebookPanel:not(.lm-mod-hidden)")
-            panel.locator(".jp-Cell").first.wait_for(timeout=60_000)
-            expect(page.locator(".jp-StatusBar-TextItem",
-                                has_text=re.compile(r"\(ipykernel\) \| Idle"))).to_be_visible(
-                timeout=90_000)
-            page.locator(".lm-MenuBar-itemLabel", has_text="Run").first.click()
-            page.get_by_role("menuitem", name="Run All Cells", exact=True).click()
+            panel = _run_all(page, lab, NOTEBOOK)
             table = panel.locator(".cp-comparison table[data-cp-table='comparison']").first
             failed = panel.locator(
                 ".jp-OutputArea-output[data-mime-type='application/vnd.jupyter.stderr']").first
@@ -160,15 +178,12 @@ def test_executed_copy_shows_figures_without_kernel_or_internet(lab, tmp_path):
 
     from cageprint.cli.notebooks import run_notebook
 
-    shots = ROOT / "test-artifacts"
-    shots.mkdir(exist_ok=True)
+    shots = _shots()
     res = run_notebook(lab["root"] / NOTEBOOK, tmp_path)
     shared = lab["root"] / "shared-copy.ipynb"
     shutil.copy(res.notebook, shared)
     with sync_playwright() as p:
-        ctx = p.chromium.launch_persistent_context(
-            tempfile.mkdtemp(prefix="cp-chromium-"), executable_path=_chromium(), headless=True,
-            viewport={"width": 1400, "height": 1100}, args=CHROMIUM_ARGS)
+        ctx = _context(p)
         try:
             # 1. the HTML export, opened from disk with every network request refused
             page = ctx.new_page()
@@ -197,5 +212,90 @@ def test_executed_copy_shows_figures_without_kernel_or_internet(lab, tmp_path):
             expect(panel.locator("table", has_text="rank 1: C76 1").first).to_be_attached(
                 timeout=30_000)
             page.screenshot(path=str(shots / "e2e-lab-executed-copy.png"))
+        finally:
+            ctx.close()
+
+
+def _views_notebook(path: Path) -> None:
+    import nbformat
+
+    cells = [
+        # the flat view of a C1 C84 cage: 84 one-carbon orbits
+        "from IPython.display import display\n"
+        "from cageprint import widgets as cpw\n"
+        "from cageprint.cage import iter_isomers\n"
+        "from cageprint.candidate import Candidate\n"
+        "from cageprint.symmetry import fingerprint\n"
+        "session = cpw.setup(demo=None)\n"
+        "cage = next(c for c in iter_isomers(84) if len(fingerprint(c).nmr.orbits) == 84)\n"
+        "cpw.cage_figures(Candidate.from_cage(cage, fingerprint(cage)))[1]",
+        # every isomer of C80 in the chooser, shown before the list is computed
+        "chooser = cpw.CandidateChooser(session, ipr=False)\n"
+        "display(chooser.ui)\n"
+        "chooser.formula.value = 'C80'",
+    ]
+    nb = nbformat.v4.new_notebook(cells=[nbformat.v4.new_code_cell(c) for c in cells])
+    nb.metadata["kernelspec"] = {"name": "python3", "display_name": "Python 3 (ipykernel)",
+                                 "language": "python"}
+    nbformat.write(nb, path)
+
+
+def test_orbit_markers_and_an_all_isomer_list_in_the_page(lab):
+    # issue 15: a C1 C84 flat view has no two orbits sharing a rendered colour + marker pair,
+    # hovering names the orbit; "all isomers" of C80 (31,924 cages, Fowler & Manolopoulos,
+    # An Atlas of Fullerenes, 1995, from memory) shows a progress bar while computed, its
+    # first page within 2 s of the list being ready, and a re-sort of every row within 1 s
+    # (common practice, no source)
+    from playwright.sync_api import expect, sync_playwright
+
+    shots = _shots()
+    _views_notebook(lab["root"] / "views.ipynb")
+    with sync_playwright() as p:
+        ctx = _context(p)
+        page = ctx.new_page()
+        try:
+            panel = _run_all(page, lab, "views.ipynb")
+            # 1. the flat view: one rendered (fill, marker shape) pair per orbit trace
+            flat = panel.locator(".js-plotly-plot").first
+            flat.locator(".main-svg").first.wait_for(timeout=120_000)
+            pairs = page.evaluate(
+                """() => Array.from(document.querySelectorAll('.js-plotly-plot')[0]
+                        .querySelectorAll('g.trace.scatter'))
+                    .map(g => g.querySelector('path.point'))
+                    .filter(pt => pt !== null)
+                    .map(pt => pt.style.fill + '|' + pt.getAttribute('d'))""")
+            assert len(pairs) == 84 and len(set(pairs)) == 84, pairs[:6]
+            flat.locator("path.point").first.hover(force=True)
+            expect(page.locator(".hoverlayer .hovertext").first).to_contain_text(
+                "orbit", timeout=10_000)
+            flat.scroll_into_view_if_needed()
+            page.screenshot(path=str(shots / "e2e-orbits-c84-flat.png"))
+            # 2. the C80 list: a progress bar first, then the first page soon after
+            bar = panel.locator(".cp-library-progress .widget-hprogress, "
+                                ".cp-library-progress progress").first
+            bar.wait_for(timeout=120_000)
+            page.screenshot(path=str(shots / "e2e-c80-computing.png"))
+            bar.wait_for(state="detached", timeout=600_000)
+            ready = time.monotonic()
+            table = panel.locator(".cp-candidates table[data-rows='200']").first
+            table.wait_for(timeout=30_000)
+            first_page = time.monotonic() - ready
+            expect(panel.locator(".cp-page-info")).to_contain_text("of 31924", timeout=5_000)
+            first_row = table.locator("tbody tr").first.get_attribute("data-key")
+            sort = panel.locator(".cp-sort select").first
+            t0 = time.monotonic()
+            sort.select_option(label="Hückel gap")
+            expect(table.locator("tbody tr").first).not_to_have_attribute(
+                "data-key", first_row, timeout=10_000)
+            resort = time.monotonic() - t0
+            table.scroll_into_view_if_needed()
+            page.screenshot(path=str(shots / "e2e-c80-all-isomers.png"))
+            (shots / "e2e-c80-times.txt").write_text(
+                f"first page after the list was ready: {first_page:.2f} s\n"
+                f"re-sort of 31,924 rows to the page: {resort:.2f} s\n")
+            assert first_page < 2.0 and resort < 1.0, (first_page, resort)
+        except Exception:
+            page.screenshot(path=str(shots / "e2e-views-failure.png"), full_page=True)
+            raise
         finally:
             ctx.close()
