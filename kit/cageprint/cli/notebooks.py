@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import argparse
 import ast
+import collections
 import json
 import os
 import pathlib
@@ -223,7 +224,16 @@ def run_notebook(
     old = os.environ.get("PLOTLY_RENDERER")
     os.environ["PLOTLY_RENDERER"] = PLOTLY_RENDERER  # kernels inherit the environment
     t0 = time.perf_counter()
-    client = NotebookClient(
+    class _Client(NotebookClient):
+        # nbclient's stand-in for Output widgets writes each captured output into
+        # widget_state even when widget state is not stored, and fails (KeyError) on the first
+        # one (e.g. a progress bar shown inside an Output widget); a default entry per widget
+        # is enough, and none of it reaches the saved notebook (metadata.widgets is dropped)
+        def reset_execution_trackers(self) -> None:
+            super().reset_execution_trackers()
+            self.widget_state = collections.defaultdict(dict)
+
+    client = _Client(
         nb,
         timeout=timeout,
         kernel_name="python3",

@@ -116,18 +116,20 @@ class CandidateChooser:
             return
         try:
             self.session.set_formula(text)
-            if self.library is None:
-                with self.building:  # a progress bar while the list is computed
-                    self.building.clear_output()
-                    self.session.set_candidates(ipr=self.ipr.value, progress=True)
-                    self.building.clear_output()
-            else:
-                path = None if self.library is True else self.library
-                with self.building:  # a missing size is built here, its progress bar shown
-                    self.building.clear_output()
-                    cands = library_candidates(text, self.ipr.value, path=path)
-                    self.building.clear_output()
-                self.session.set_candidates(cands)
+            # the progress bar of the work below shows in self.building while it runs; the
+            # outputs are reset by value, not clear_output(), which a headless run
+            # (nbclient) cannot follow inside an Output context
+            self.building.outputs = ()
+            try:
+                with self.building:
+                    if self.library is None:
+                        self.session.set_candidates(ipr=self.ipr.value, progress=True)
+                    else:  # a missing size is built first
+                        path = None if self.library is True else self.library
+                        self.session.set_candidates(
+                            library_candidates(text, self.ipr.value, path=path))
+            finally:
+                self.building.outputs = ()
         except Exception as exc:  # shown in the widget, candidates left as they were
             self.problem.show(exc)
             return
