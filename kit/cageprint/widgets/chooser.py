@@ -116,10 +116,9 @@ class CandidateChooser:
             return
         try:
             self.session.set_formula(text)
-            # the progress bar of the work below shows in self.building while it runs; the
-            # outputs are reset by value, not clear_output(), which a headless run
-            # (nbclient) cannot follow inside an Output context
-            self.building.outputs = ()
+            # the progress bar of the work below shows in self.building while it runs (a
+            # live page keeps captured outputs on its side: only clear_output() empties them)
+            self.building.clear_output()
             try:
                 with self.building:
                     if self.library is None:
@@ -129,7 +128,7 @@ class CandidateChooser:
                         self.session.set_candidates(
                             library_candidates(text, self.ipr.value, path=path))
             finally:
-                self.building.outputs = ()
+                self.building.clear_output()
         except Exception as exc:  # shown in the widget, candidates left as they were
             self.problem.show(exc)
             return
