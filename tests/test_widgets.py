@@ -291,6 +291,13 @@ def test_board_export_failure_is_shown(session, tmp_path):
     assert "Export failed, nothing was overwritten" in board.problem.message
 
 
+def test_board_export_button_is_as_wide_as_its_caption(session):
+    # issue 15: "Board: the export caption is cut" (ipywidgets' default button width)
+    board = AssignmentBoard(session)
+    assert board.export_button.layout.width == "auto"
+    assert board.export_button.description == "export record + report"
+
+
 def test_board_old_written_line_goes_when_a_new_export_fails(session, tmp_path):
     # issue 15: "an old 'written:' line stays above a new error"
     board = AssignmentBoard(session, out_dir=tmp_path / "out", name="frac-x")

@@ -73,7 +73,9 @@ class AssignmentBoard:
             s.add_class(f"cp-weight-{t}")
             s.observe(self._weight, names=["value"])
         self.name = w.Text(value=name, description="file name")
-        self.export_button = w.Button(description="export record + report", icon="download")
+        # a button sized to its caption (the default width cut it to "export record + re...")
+        self.export_button = w.Button(description="export record + report", icon="download",
+                                      layout=w.Layout(width="auto"))
         self.export_button.add_class("cp-export")
         self.export_button.on_click(self.export)
         self.exported = w.HTML()
