@@ -35,7 +35,7 @@ import numpy as np
 
 from ..errors import LibraryError, StabilityError
 from ..formula import parse_formula
-from ..stability.endohedral import ATOMIC_NUMBERS
+from ..stability.endohedral import placeable
 from ..stability.energy import (
     KJMOL_PER_HARTREE,
     MAX_STEPS,
@@ -217,12 +217,12 @@ def cascade(formula: str, *, shortlist: int = SHORTLIST, ipr: bool = False, path
     f = parse_formula(formula)
     n = f.cage_n
     q = formal_charge(formula) if charge is None else int(charge)
-    placeable = _placeable(f)
+    can_place = placeable(f)
     if model is None:
-        model = "stepwise" if placeable else "anion"
+        model = "stepwise" if can_place else "anion"
     if model not in ("stepwise", "anion", "cluster"):
         raise LibraryError(f"model: expected 'stepwise', 'anion' or 'cluster'; got {model!r}")
-    if model != "anion" and not placeable:
+    if model != "anion" and not can_place:
         raise LibraryError(f"model {model!r}: {formula} has no cluster the kit can place "
                            "(M3N or one metal); use model='anion'")
     t0 = time.perf_counter()
@@ -258,8 +258,9 @@ def cascade(formula: str, *, shortlist: int = SHORTLIST, ipr: bool = False, path
         else:
             tasks = [EnergyTask(n, spiral(k), 0, method, formula=formula) for k in short]
         done += run(tasks)
+        relaxed = {t.spiral for t in tasks}
         cluster = _relative(library_energies(n, 0, tasks[0].label, path),
-                            [k for k in short if any(spiral(k) == t.spiral for t in tasks)])
+                            [k for k in short if spiral(k) in relaxed])
     inner_label = EnergyTask(n, (), 0, method, formula=formula).label
     label = {"anion": method, "cluster": inner_label,
              "stepwise": f"{method} anions, then {inner_label}"}[model]
@@ -296,10 +297,3 @@ def _relative(energies: dict, keys) -> dict:
     low = min(mine.values())
     return {k: (e - low) * KJMOL_PER_HARTREE for k, e in mine.items()}
 
-
-def _placeable(f) -> bool:
-    inner = dict(f.inner)
-    metals = [e for e in inner if e != "N"]
-    if len(metals) != 1 or metals[0] not in ATOMIC_NUMBERS:
-        return False
-    return (inner.get("N") == 1 and inner[metals[0]] == 3) or inner == {metals[0]: 1}

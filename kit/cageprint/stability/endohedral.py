@@ -28,7 +28,7 @@ from ..formula import parse_formula
 from ..symmetry import symmetric_geometry
 
 __all__ = ["M3N_BOND", "M_OFFSET", "PENTAGON_SITE_PENALTY", "ATOMIC_NUMBERS", "SYMBOLS",
-           "sites", "place_cluster"]
+           "sites", "placeable", "place_cluster"]
 
 #: start N-M distance (Å) of an M3N cluster (Sc-N about 2.0 Å in Sc3N@C80; from memory),
 #: a little short so the start is not pressed onto the cage
@@ -95,6 +95,22 @@ def _m3n_orientation(fused: np.ndarray, pents: np.ndarray) -> np.ndarray:
     return tri @ best.T
 
 
+def placeable(formula) -> bool:
+    """True when the cluster model can place the formula's inner part: M3N or one metal.
+
+    Examples
+    --------
+    >>> [placeable(f) for f in ("Sc3N@C68", "La@C82", "Y2C2@C82", "C60")]
+    [True, True, False, False]
+    """
+    f = parse_formula(formula) if isinstance(formula, str) else formula
+    inner = dict(f.inner)
+    metals = [e for e in inner if e != "N"]
+    if len(metals) != 1 or metals[0] not in ATOMIC_NUMBERS:
+        return False
+    return (inner.get("N") == 1 and inner[metals[0]] == 3) or inner == {metals[0]: 1}
+
+
 def place_cluster(cage, formula: str, coords=None) -> tuple[list[int], np.ndarray]:
     """Atomic numbers and start coordinates (Å) of the cage with its cluster inside.
 
@@ -107,18 +123,17 @@ def place_cluster(cage, formula: str, coords=None) -> tuple[list[int], np.ndarra
     inner = dict(f.inner)
     x = np.asarray(symmetric_geometry(cage).coords if coords is None else coords, dtype=float)
     x = x - x.mean(axis=0)
+    if not placeable(f):
+        raise StabilityError(f"{formula}: the cluster model places M3N or a single metal "
+                             "inside a cage; use the bare cage anion (charge) for others")
     fused, pents = sites(cage, x)
-    metals = [e for e in inner if e != "N"]
-    if len(metals) == 1 and inner.get("N") == 1 and inner[metals[0]] == 3:
-        m = metals[0]
+    (m,) = [e for e in inner if e != "N"]
+    if "N" in inner:  # M3N: N at the centre, the metals in a plane around it
         dirs = _m3n_orientation(fused, pents)
         atoms = [ATOMIC_NUMBERS["N"]] + [ATOMIC_NUMBERS[m]] * 3
         extra = np.vstack([np.zeros(3), M3N_BOND * dirs])
-    elif len(inner) == 1 and inner[metals[0]] == 1 and metals[0] in ATOMIC_NUMBERS:
-        d = fused[0] if len(fused) else pents[0]
-        atoms = [ATOMIC_NUMBERS[metals[0]]]
-        extra = (M_OFFSET * d)[None, :]
     else:
-        raise StabilityError(f"{formula}: the cluster model places M3N or a single metal "
-                             "inside a cage; use the bare cage anion (charge) for others")
+        d = fused[0] if len(fused) else pents[0]
+        atoms = [ATOMIC_NUMBERS[m]]
+        extra = (M_OFFSET * d)[None, :]
     return [6] * cage.n + atoms, np.vstack([x, extra])
