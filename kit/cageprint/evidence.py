@@ -56,7 +56,7 @@ __all__ = [
 #: below e**0.2 = 1.22) share a rank: "not separable with this evidence"
 TIE_TOL = 0.2
 #: how every table that shows scores explains them
-SCORE_NOTE = ("score: log-likelihood-like, 0 = fits as predicted, more negative = worse; "
+SCORE_NOTE = ("Score: log-likelihood-like, 0 = fits as predicted, more negative = worse; "
               "the ranking adds each technique's score times its weight")
 
 #: verdict word from the log-likelihood ratio to the best kept row: within 1.1 nats

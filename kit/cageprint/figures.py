@@ -107,7 +107,7 @@ def orbit_styles(orbits: Sequence[Sequence[int]], flat: bool = False) -> list[tu
     seen: dict[int, int] = {}
     out = []
     for i, o in enumerate(orbits):
-        if start <= len(ORBIT_SYMBOLS):
+        if start <= len(shapes):
             j = seen.get(len(o), 0)
             seen[len(o)] = j + 1
             out.append((palette[j % k], shapes[blocks[len(o)] + j // k]))

@@ -43,7 +43,7 @@ def ranking_html(ranking: Ranking, limit: int | None = 50) -> str:
                               highlight=[r.candidate.isomer for r in ranking.top()],
                               caption=f"Rank 1: {top or 'none'}; weights " + ", ".join(
                                   f"{label(t)} {ranking.weights[t]:g}"
-                                  for t in ranking.techniques) + f". {SCORE_NOTE.capitalize()}; "
+                                  for t in ranking.techniques) + f". {SCORE_NOTE}; "
                               "share: each candidate's posterior share among those kept",
                               max_rows=limit)
 

@@ -188,9 +188,9 @@ class CandidateChooser:
         start = self.page * MAX_ROWS
         shown = rows[start:start + MAX_ROWS]
         # the picker offers this page's cages and keeps what was picked on other pages
-        picked = [v for v in self.pick.value if any(r["isomer"] == v for r in rows)]
+        by_iso = {r["isomer"]: r for r in rows}
+        picked = [v for v in self.pick.value if v in by_iso]
         on_page = {r["isomer"] for r in shown}
-        by_iso = {r["isomer"]: r for r in rows if r["isomer"] in on_page or r["isomer"] in picked}
         order = [r["isomer"] for r in shown] + [v for v in picked if v not in on_page]
         opts = [(f"{self.session.formula} {v} ({by_iso[v]['point group']})", v) for v in order]
         if [o[1] for o in self.pick.options] != order or list(self.pick.value) != picked:

@@ -203,7 +203,7 @@ class ComparisonPanel:
             rows, ["candidate", "point group", "rank", "predicted", "observed", "verdict",
                    "score", "weighted", "why"], name="comparison", key="key",
             caption=f"{n_obs} {self.tech.observed_noun} observed with "
-                    + self.settings_caption() + f". {SCORE_NOTE.capitalize()}; "
+                    + self.settings_caption() + f". {SCORE_NOTE}; "
                     f"weighted: times this technique's weight, {weight:g}")
         return body.replace('data-cp-table="comparison"',
                             f'data-cp-table="comparison" data-observed="{n_obs}"', 1)
