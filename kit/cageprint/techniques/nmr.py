@@ -47,7 +47,18 @@ from ..plain import plain as _plain
 from ..spectra import integrate, pick_peaks, references
 from ..symmetry import predict_nmr  # re-exported: one module per technique
 from ..verdict import TechniqueVerdict
-from .nmr_match import _fit, _orbit_sizes, _partner_list, labeling_cost
+from .nmr_match import (
+    PARTNER_FLAWS,
+    _crowding,
+    _detection,
+    _fit,
+    _line_tols,
+    _orbit_sizes,
+    _partner_list,
+    _second_component,
+    labeling_cost,
+    missing_costs,
+)
 from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
     ESTIMATE_C60_ANGLE_DEG,
     ESTIMATE_PPM_AT_C60,
@@ -104,7 +115,7 @@ NMR_MINOR_COMPONENT_COST = 6.0
 NMR_MINOR_FRACTION = 0.6
 #: a second component with more flaws than this (orbits merged or missing, lines left
 #: over) does not make a convincing mixture: the verdict is at best "unlikely"
-NMR_PARTNER_FLAWS = 2
+NMR_PARTNER_FLAWS = PARTNER_FLAWS
 #: the second-component search tries at most this many distinct partner patterns
 NMR_MAX_PARTNERS = 60
 #: verdict limits: impurity lines, and lost orbits (merged + missing) as a fraction
@@ -270,9 +281,9 @@ def observe_nmr(
                     for p in pos[~keep]]
         pos, area, s_n = pos[keep], area[keep], s_n[keep]
     else:
-        pos, area, s_n, noise = _pick_profile(spectrum, snr, prominence,
-                                              integration_halfwidth)
-        diagnostics["noise"] = noise
+        pos, area, s_n, noise, width = _pick_profile(spectrum, snr, prominence,
+                                                     integration_halfwidth)
+        diagnostics["noise"], diagnostics["line_width"] = noise, width
         excluded = []
     lines_p, lines_a, lines_s = [], [], []
     for p, a, s in zip(pos, area, s_n, strict=False):
@@ -328,11 +339,14 @@ def _pick_profile(spectrum, snr, prominence, halfwidth):
     """
     peaks = pick_peaks(spectrum, snr=snr, prominence=prominence)
     if len(peaks) == 0:
-        return np.array([]), np.array([]), np.array([]), peaks.diagnostics.get("noise")
+        return np.array([]), np.array([]), np.array([]), peaks.diagnostics.get("noise"), None
     ints = integrate(spectrum, peaks, half_width=halfwidth, baseline="arpls")
     area = np.maximum(np.asarray(ints.integrals, float), 1e-300)
+    widths = np.asarray(peaks.widths, float)
+    widths = widths[np.isfinite(widths) & (widths > 0)]
+    width = float(np.median(widths)) if widths.size else None
     return (np.asarray(peaks.positions, float), area, np.asarray(peaks.snr, float),
-            peaks.diagnostics.get("noise"))
+            peaks.diagnostics.get("noise"), width)
 
 
 # --------------------------------------------------------------------- compare
@@ -396,7 +410,7 @@ def compare_nmr(
     --------
     >>> obs = NmrObservation((130.3, 144.8, 146.8, 147.5, 150.1), (10.5, 19.0, 21.0, 9.5, 10.2))
     >>> v = compare_nmr((10, 10, 10, 20, 20), obs)
-    >>> v.verdict, round(v.score + labeling_cost((10, 10, 10, 20, 20)), 2) > -1
+    >>> v.verdict, round(v.score + labeling_cost(v.details["assignment"]), 2) > -1
     ('consistent', True)
     >>> compare_nmr((60,), obs).verdict
     'ruled out'
@@ -416,73 +430,31 @@ def compare_nmr(
     logs = [math.log(a) for a in ints] if use else [None] * n_obs
     weights = list(ints) if use else [1.0] * n_obs
     costs = (integral_tol, max_merge, merge_cost, impurity_cost, impurity_strength_cost,
-             missing_cost)
-    cost, picks, values, counts, ln_s = _fit(sizes, logs, costs)
+             missing_cost) + _detection(observation, use) + (_crowding(observation, len(sizes)),)
+    tols = _line_tols(observation, integral_tol) if use else None
+    cost, picks, values, counts, ln_s = _fit(sizes, logs, costs, tols)
+    # a profile's lines are labelled with impurities as one more kind; a peak list (no
+    # S/N, no widths) keeps the labelling of the predicted orbits alone
+    profile = bool(costs[6])
     if use:
-        cost += labeling_cost(sizes)
+        cost += labeling_cost(picks if profile else sizes)
     mixture = None
     unexplained = [j for j, k in enumerate(picks) if k is None]
     if len(unexplained) > impurity_allowance and partners:
         mixture = _second_component(sizes, logs, picks, values, ln_s, weights,
-                                    unexplained=unexplained,
+                                    unexplained=unexplained, tols=tols, profile=profile,
                                     partners=_partner_list(partners)[:NMR_MAX_PARTNERS],
                                     costs=costs, cost_alone=cost, mixture_cost=mixture_cost,
                                     minor_component_cost=minor_component_cost)
         if mixture is not None:
             cost = mixture["cost"]
+    lost_expected = float(np.dot(counts, np.exp(-missing_costs(values, ln_s if use else None,
+                                                               costs))))
     return _verdict(observation, sizes, pattern, cost, picks, values, counts=counts, ln_s=ln_s,
-                    use=use, tol=integral_tol, impurity_allowance=impurity_allowance,
+                    use=use, lost_expected=lost_expected, tol=integral_tol,
+                    impurity_allowance=impurity_allowance,
                     lost_allowance=lost_allowance, minor_fraction=minor_fraction,
                     weights=weights, mixture=mixture)
-
-
-def _second_component(sizes, logs, picks, values, ln_s, weights, *, unexplained, partners,
-                      costs, cost_alone, mixture_cost, minor_component_cost):
-    """Try the unexplained lines as a second component; the best, if cheaper than impurities."""
-    def imp(j: int, ln_scale: float, top: float) -> float:
-        r = math.exp(logs[j] + ln_scale) / top if logs[j] is not None else 0.0
-        return costs[3] + costs[4] * r * r
-
-    top = float(values[0])
-    base = cost_alone - sum(imp(j, ln_s, top) for j in unexplained)
-    sub_logs = [logs[j] for j in unexplained]
-    total = sum(weights)
-    mine = sum(w for j, w in enumerate(weights) if picks[j] is not None)
-    best, n_left, own = None, len(unexplained), sorted(sizes)  # own: no second component
-    for p_sizes, label in partners:
-        # a partner must be able to explain the left-over lines with few flaws
-        if sorted(p_sizes) == own or not (n_left - NMR_PARTNER_FLAWS <= len(p_sizes)
-                <= costs[1] * n_left + NMR_PARTNER_FLAWS):
-            continue
-        sub_cost, sub_picks, _v, sub_counts, sub_s = _fit(p_sizes, sub_logs, costs)
-        # lines neither component explains are impurities of the sample: judge their
-        # strength against the candidate's own scale, not the partner's
-        for i, k in enumerate(sub_picks):
-            if k is None:
-                j = unexplained[i]
-                sub_cost += imp(j, ln_s, top) - imp(j, sub_s, float(max(p_sizes)))
-        # which lines belong to which component is itself a choice fitted to the data:
-        # charge its log-count, ln C(lines, partner lines), besides the fixed mixture cost
-        m = sum(1 for k in sub_picks if k is not None)
-        n_all = len(logs)
-        partition = (math.lgamma(n_all + 1) - math.lgamma(m + 1)
-                     - math.lgamma(n_all - m + 1))
-        cost = base + sub_cost + mixture_cost + partition
-        minor = mine < 0.5 * total
-        if minor:
-            cost += minor_component_cost
-        if best is None or cost < best["cost"] - 1e-12:
-            used = [unexplained[i] for i, k in enumerate(sub_picks) if k is not None]
-            n_used = sum(sum(k) for k in sub_picks if k is not None)
-            merges = sum(sum(k) - 1 for k in sub_picks if k is not None)
-            flaws = (sum(sub_counts) - n_used) + merges + (len(sub_picks) - len(used))
-            best = {"cost": cost, "label": label, "flaws": flaws,
-                    "pattern": Candidate("C", sum(p_sizes), 0, "", p_sizes).pattern,
-                    "lines": used, "fraction": sum(weights[j] for j in used) / total,
-                    "own_fraction": mine / total, "minor": minor}
-    if best is None or best["cost"] >= cost_alone:
-        return None
-    return best
 
 
 _WORD = {1: "one", 2: "two", 3: "three", 4: "four", 5: "five", 6: "six", 10: "ten", 12: "twelve"}
@@ -497,7 +469,7 @@ def _intensity_word(v: int, top: int) -> str:
     return f"{frac.numerator}/{frac.denominator}-intensity"
 
 
-def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, tol,
+def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, lost_expected, tol,
              impurity_allowance, lost_allowance, minor_fraction, weights, mixture):
     n_obs, n_pred = obs.n_lines, len(sizes)
     partner_lines = set(mixture["lines"]) if mixture else set()
@@ -510,7 +482,8 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, tol
     merged_lines = [(obs.positions[j], k) for j, k in enumerate(picks)
                     if k is not None and sum(k) > 1]
     extra = sum(sum(k) - 1 for _, k in merged_lines)
-    lost = missing + extra
+    # orbits the S/N makes likely to be lost do not count against the candidate
+    lost = extra + max(0, missing - math.floor(lost_expected))
     errs = []
     if use:
         for j, k in enumerate(picks):
@@ -554,8 +527,10 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, tol
         reasons.append(f"{len(impurities)} line{'s' if len(impurities) != 1 else ''} "
                        f"unexplained (impurity assumed): {shown}{more} ppm.")
     if missing:
+        at_snr = (f"; {lost_expected:.1f} expected at this S/N"
+                  if any(math.isfinite(q) for q in obs.snr) else "")
         reasons.append(f"{missing} orbit{'s' if missing != 1 else ''} not seen "
-                       "(weak or lost in noise assumed).")
+                       f"(weak or lost in noise assumed{at_snr}).")
     if use and errs:
         reasons.append(f"integrals agree within {100 * (math.exp(rms) - 1):.0f} % rms "
                        f"(tolerance {100 * tol:.0f} %).")
@@ -569,7 +544,8 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, tol
                        f"intensity) exceed the allowance of {impurity_allowance} lines or "
                        f"{100 * minor_fraction:.0f} %")
         if lost > lost_limit:
-            why.append(f"{lost} orbits merged or missing exceed the allowance of {lost_limit}")
+            why.append(f"{lost} orbits merged or missing beyond those expected to be lost "
+                       f"exceed the allowance of {lost_limit}")
         reasons.insert(1, "ruled out: " + "; ".join(why) + ".")
     elif mixture and mixture["flaws"] > NMR_PARTNER_FLAWS:
         verdict = "unlikely"
@@ -586,7 +562,7 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, tol
     details = {
         "pattern": pattern, "n_observed": n_obs, "n_predicted": n_pred, "cost": cost,
         "impurity_lines": impurities, "impurity_fraction": imp_fraction,
-        "missing_orbits": missing, "merged_orbits": extra,
+        "missing_orbits": missing, "missing_expected": lost_expected, "merged_orbits": extra,
         "merged_lines": [[p, int(sum(k))] for p, k in merged_lines],
         "rms_log_integral_error": rms, "carbons_per_unit_area": math.exp(ln_s) if use else None,
         "assignment": [None if k is None

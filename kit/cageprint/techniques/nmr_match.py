@@ -47,15 +47,17 @@ def _layout(sizes: tuple[int, ...], max_merge: int):
     flat = np.arange(n_states, dtype=np.intp)
     valid = np.all(grids[None, :, :] >= k_arr[:, :, None], axis=1)
     gather = np.where(valid, flat[None, :] - offsets[:, None], n_states)
-    unused = sum(c - g for c, g in zip(counts, grids, strict=True))
+    left = np.array(counts, float)[:, None] - grids
     return (values, counts, options, np.log(contents), n_orb, gather, gather.T.tolist(),
-            [int(o) for o in offsets], unused)
+            [int(o) for o in offsets], left)
 
 
-def _assign(sizes, logs, ln_scale, costs):
+def _assign(sizes, logs, ln_scale, costs, tols=None):
     """Best explanation of the lines by the orbits, for one integral scale.
 
-    ``costs`` is (tol, max_merge, c_merge, c_imp, c_strong, c_miss).
+    ``costs`` is (tol, max_merge, c_merge, c_imp, c_strong, c_miss, snr_per_area,
+    snr_min): see :func:`missing_costs` for the last three.  ``tols`` gives each line
+    its own log-integral spread (noise widens that of weak lines); default ``tol``.
 
     Returns (cost, per-line choice vectors or None for impurity, values, counts).
 
@@ -64,17 +66,20 @@ def _assign(sizes, logs, ln_scale, costs):
     choices are recovered backwards along the best path only, by the same
     sums: the first of equal costs wins (impurity, then the earlier option).
     """
-    tol, max_merge, c_merge, c_imp, c_strong, c_miss = costs
-    values, counts, options, log_contents, n_orb, gather, sources, offsets, unused = _layout(
+    tol, max_merge, c_merge, c_imp, c_strong = costs[:5]
+    values, counts, options, log_contents, n_orb, gather, sources, offsets, left = _layout(
         tuple(sizes), int(max_merge))
     merge = c_merge * (n_orb - 1)
-    n_states = unused.size
+    n_states = left.shape[1]
+    have = bool(logs) and logs[0] is not None
+    miss = missing_costs(values, ln_scale if have else None, costs)
     n_opt = len(options)
     top = float(values[0])
     n_lines = len(logs)
     if n_lines and logs[0] is not None:
         shifted = np.array([ell + ln_scale for ell in logs])
-        z = (shifted[:, None] - log_contents[None, :]) / tol
+        spread = np.full(n_lines, tol) if tols is None else np.asarray(tols, float)
+        z = (shifted[:, None] - log_contents[None, :]) / spread[:, None]
         line_costs = 0.5 * z * z + merge
         imps = []
         for ell in logs:
@@ -98,7 +103,7 @@ def _assign(sizes, logs, ln_scale, costs):
         reduce_min(table, axis=0, out=lowest)
         add(dp[:n_states], imps[j], out=nxt)
         minimum(nxt, lowest, out=nxt)
-    total = history[n_lines, :n_states] + c_miss * unused
+    total = history[n_lines, :n_states] + miss @ left
     state = int(np.argmin(total))
     cost = float(total[state])
     picks: list[tuple[int, ...] | None] = [None] * n_lines
@@ -118,13 +123,62 @@ def _assign(sizes, logs, ln_scale, costs):
     return cost, picks, values, counts
 
 
-def _fit(sizes, logs, costs):
+#: chance that an orbit's line is lost for reasons other than noise (under a solvent or
+#: impurity line, outside the window); bounds the cost of a missing orbit from above
+#: when its expected S/N is high: -ln(0.05) = 3.0 (common practice, no source)
+LOST_ANYWAY = 0.05
+
+
+def detection_probability(expected_snr, snr_min: float, tol: float):
+    """Chance that a line of ``expected_snr`` is picked at the threshold ``snr_min``.
+
+    The picked height is the expected one spread by the relaxation scatter (log-normal,
+    ``tol``) and by unit noise: P = Phi((E - T) / sqrt(1 + (tol E)^2)) (a normal
+    approximation of both; common practice, no source).
+
+    Examples
+    --------
+    >>> round(float(detection_probability(5.0, 5.0, 0.3)), 2)
+    0.5
+    >>> float(detection_probability(50.0, 5.0, 0.3)) > 0.99
+    True
+    """
+    e = np.asarray(expected_snr, float)
+    z = (e - snr_min) / np.sqrt(1.0 + (tol * e) ** 2)
+    return 0.5 * (1.0 + _erf(z / math.sqrt(2.0)))
+
+
+_erf = np.vectorize(math.erf, otypes=[float])
+
+
+def missing_costs(values, ln_scale, costs) -> np.ndarray:
+    """Cost of leaving one orbit of each size in ``values`` unobserved.
+
+    With the spectrum's S/N per unit area known (``costs[6] > 0``, from picked
+    profile lines) an orbit of ``v`` carbons is expected at S/N ``E = v k / s`` (``s``
+    the fitted carbons per unit area): it goes unseen with probability
+    ``LOST_ANYWAY + (1 - LOST_ANYWAY) (1 - P_detect(E))``, and the cost is minus its log.
+    Weak orbits in a noisy spectrum are then nearly free to lose, strong ones are not.
+    Without S/N (peak lists) every orbit costs the flat ``costs[5]``.
+    """
+    c_miss = costs[5]
+    k = costs[6] if len(costs) > 6 else 0.0
+    if not k or ln_scale is None:
+        return np.full(len(values), float(c_miss))
+    expected = np.asarray(values, float) * k * math.exp(-ln_scale)
+    p_lost = LOST_ANYWAY + (1.0 - LOST_ANYWAY) * (1.0 - detection_probability(
+        expected, costs[7], costs[0]))
+    return np.minimum(-np.log(p_lost), float(c_miss))
+
+
+def _fit(sizes, logs, costs, tols=None):
     """Best assignment over the integral scale (memoised: see :func:`_fit_cached`)."""
-    return _fit_cached(tuple(sizes), tuple(logs), tuple(costs))
+    return _fit_cached(tuple(sizes), tuple(logs), tuple(costs),
+                       None if tols is None else tuple(tols))
 
 
 @functools.lru_cache(maxsize=4096)
-def _fit_cached(sizes, logs, costs):
+def _fit_cached(sizes, logs, costs, tols=None):
     """Best assignment over the integral scale.
 
     Two starting scales (all carbons seen; the commonest orbit on the median
@@ -135,30 +189,88 @@ def _fit_cached(sizes, logs, costs):
     search fits each partner pattern to the same left-over lines for many
     candidates, and a re-rank repeats the fits of unchanged lines.  The
     result's lists are shared; callers only read them.
+
+    With a coincidence rate expected from the crowding (``costs[8] > 0``) the
+    merges are charged by :func:`merge_cost_total` instead of a flat cost each:
+    the assignment is made at the per-merge cost of the expected rate, then once
+    more at the rate the candidate's own merges suggest, and the cheaper total wins.
     """
+    p0 = costs[8] if len(costs) > 8 else 0.0
+    if not p0:
+        return _fit_scale(sizes, logs, costs, tols)
+    tried = []
+    c_merge = math.log((1.0 - p0) / p0)
+    for _ in range(2):
+        trial = costs[:2] + (c_merge,) + costs[3:]
+        res = _fit_scale(sizes, logs, trial, tols)
+        merges = sum(sum(k) - 1 for k in res[1] if k is not None)
+        seen = sum(sum(k) for k in res[1] if k is not None)
+        total = res[0] - c_merge * merges + merge_cost_total(merges, seen, p0)
+        tried.append((total,) + res[1:])
+        rate = (merges + MERGE_PRIOR_WEIGHT * p0) / (seen + MERGE_PRIOR_WEIGHT)
+        new = math.log((1.0 - rate) / rate)
+        if abs(new - c_merge) < 0.25:
+            break
+        c_merge = new
+    return min(tried, key=lambda r: r[0])
+
+
+#: weight (in orbits) of the expected coincidence rate against the candidate's own count
+MERGE_PRIOR_WEIGHT = 10.0
+
+
+def merge_cost_total(merges: int, seen: int, p0: float) -> float:
+    """Cost of ``merges`` extra orbits sharing lines among ``seen`` observed orbits.
+
+    Each observed orbit lands on another's line with an unknown probability ``p``
+    drawn from a Beta prior of mean ``p0`` (the rate the crowding predicts) and weight
+    :data:`MERGE_PRIOR_WEIGHT`; minus the log of the beta-binomial probability of the
+    count (which lines carry the merges is charged by :func:`labeling_cost`).  A
+    crowded spectrum that shows many coincidences makes each one cheap; a sparse one
+    keeps them dear (common practice, no source).
+
+    Examples
+    --------
+    >>> costs = [merge_cost_total(m, 20, 0.05) for m in (0, 1, 2)]
+    >>> costs[0] < costs[1] < costs[2]
+    True
+    """
+    a = MERGE_PRIOR_WEIGHT * p0
+    b = MERGE_PRIOR_WEIGHT * (1.0 - p0)
+    m, n = merges, max(seen, merges)
+    ln_choose = math.lgamma(n + 1) - math.lgamma(m + 1) - math.lgamma(n - m + 1)
+    return -(ln_choose + _lbeta(m + a, n - m + b) - _lbeta(a, b))
+
+
+def _lbeta(a: float, b: float) -> float:
+    return math.lgamma(a) + math.lgamma(b) - math.lgamma(a + b)
+
+
+def _fit_scale(sizes, logs, costs, tols=None):
     use = logs and logs[0] is not None
     if not use:
-        return _assign(sizes, logs, 0.0, costs) + (0.0,)
+        return _assign(sizes, logs, 0.0, costs, tols) + (0.0,)
     counts = {v: sizes.count(v) for v in set(sizes)}
     v_mode = max(counts, key=lambda v: (counts[v], v))
     total = sum(math.exp(ell) for ell in logs)
     starts = [math.log(sum(sizes) / total), math.log(v_mode) - float(np.median(logs))]
     if abs(starts[1] - starts[0]) < 1e-3:
         starts = starts[:1]
-    best = min((_assign(sizes, logs, ln_s, costs) + (ln_s,) for ln_s in starts),
+    best = min((_assign(sizes, logs, ln_s, costs, tols) + (ln_s,) for ln_s in starts),
                key=lambda r: r[0])
     seen = {round(r, 6) for r in starts}
     for _ in range(4):
         _cost, picks, values, _c, ln_s = best
-        diffs = [math.log(sum(ki * v for ki, v in zip(k, values, strict=True))) - ell
-                 for k, ell in zip(picks, logs, strict=True) if k is not None]
+        w = [1.0] * len(logs) if tols is None else [t ** -2 for t in tols]
+        diffs = [(math.log(sum(ki * v for ki, v in zip(k, values, strict=True))) - ell, wj)
+                 for k, ell, wj in zip(picks, logs, w, strict=True) if k is not None]
         if not diffs:
             break
-        new_s = float(np.mean(diffs))
+        new_s = sum(d * wj for d, wj in diffs) / sum(wj for _, wj in diffs)
         if round(new_s, 6) in seen:
             break
         seen.add(round(new_s, 6))
-        res = _assign(sizes, logs, new_s, costs) + (new_s,)
+        res = _assign(sizes, logs, new_s, costs, tols) + (new_s,)
         if res[0] >= best[0] - 1e-12:
             break
         best = res
@@ -206,23 +318,139 @@ def _partner_list(partners) -> list[tuple[tuple[int, ...], str]]:
     return list(out.items())
 
 
-def labeling_cost(sizes: tuple[int, ...]) -> float:
-    """Occam term of a pattern: ln of the number of distinct orders of its orbit sizes.
+def labeling_cost(kinds) -> float:
+    """Occam term of an explanation: ln of the number of distinct orders of its line kinds.
 
-    Which observed line belongs to which kind of orbit is itself fitted to the data; with
-    shifts unknown, every order of the orbits along the axis is equally likely a priori, so
-    one labelling has prior probability 1 / (n! / prod n_v!).  A pattern with one orbit size
-    pays nothing; one with many small orbits beside big ones pays for the freedom to explain
-    weak lines as small orbits (common practice, no source: the multinomial count).
+    ``kinds`` holds one hashable label per observed line: what the line carries (an orbit
+    size, a merged group, a component of a mixture) or None for an impurity.  With shifts
+    unknown, every order of the kinds along the axis is equally likely a priori, so one
+    labelling has prior probability ``prod n_k! / n!``.  Charged over the *observed* lines,
+    impurities included, so a pattern with many small orbits pays for the freedom to call
+    weak lines small orbits, and an explanation that calls lines impurities pays for the
+    freedom to pick which (common practice, no source: the multinomial count).
 
     Examples
     --------
-    >>> labeling_cost((4,) * 19)
+    >>> labeling_cost([4] * 19)
     0.0
-    >>> round(labeling_cost((10, 10, 10, 20, 20)), 3)   # 5! / (3! 2!) = 10
+    >>> round(labeling_cost([10, 10, 10, 20, 20]), 3)   # 5! / (3! 2!) = 10
     2.303
+    >>> round(labeling_cost([4] * 17 + [None] * 2), 3)  # which 2 of 19 lines: 171
+    5.142
     """
-    counts: dict[int, int] = {}
-    for v in sizes:
-        counts[v] = counts.get(v, 0) + 1
-    return math.lgamma(len(sizes) + 1) - sum(math.lgamma(c + 1) for c in counts.values())
+    counts: dict = {}
+    for k in kinds:
+        counts[k] = counts.get(k, 0) + 1
+    n = sum(counts.values())
+    return math.lgamma(n + 1) - sum(math.lgamma(c + 1) for c in counts.values())
+
+
+# ------------------------------------------------ what the spectrum tells the model
+
+#: relative integral error from noise alone, per unit of 1/(S/N) of the line: a line a few
+#: points wide integrated over +-NMR_INTEGRATION_HALFWIDTH (common practice, no source)
+NMR_NOISE_AREA_FACTOR = 1.0
+
+
+def _line_tols(obs, tol: float) -> tuple[float, ...] | None:
+    """Each line's log-integral spread: the relaxation spread and its noise, in quadrature."""
+    if not any(math.isfinite(q) for q in obs.snr):
+        return None
+    return tuple(math.hypot(tol, NMR_NOISE_AREA_FACTOR / q) if math.isfinite(q) and q > 0
+                 else tol for q in obs.snr)
+
+
+def _crowding(obs, n_orbits: int) -> float:
+    """Expected chance that an orbit's line falls on another's (0 when line widths are unknown).
+
+    ``(n - 1) * 2 w * integral f^2``: ``w`` the median line width (FWHM, ppm), ``f`` the
+    density of shifts, taken as normal with the robust spread of the observed lines
+    (common practice, no source).
+    """
+    w = obs.diagnostics.get("line_width") if obs.diagnostics else None
+    if not w or not math.isfinite(w) or obs.n_lines < 5:
+        return 0.0
+    pos = np.asarray(obs.positions)
+    spread = max(1.4826 * float(np.median(np.abs(pos - np.median(pos)))), 1.0)
+    rate = (n_orbits - 1) * 2.0 * w / (2.0 * spread * math.sqrt(math.pi))
+    return float(min(max(rate, NMR_COINCIDENCE_FLOOR), NMR_COINCIDENCE_CEILING))
+
+
+#: bounds of the expected coincidence rate per orbit
+NMR_COINCIDENCE_FLOOR = 0.005
+NMR_COINCIDENCE_CEILING = 0.3
+
+
+def _detection(obs, use: bool) -> tuple[float, float]:
+    """(S/N per unit area, picking threshold) of a profile's lines, or (0, 0) if unknown."""
+    snr_min = obs.thresholds.get("snr") if obs.thresholds else None
+    ratios = [q / a for q, a in zip(obs.snr, obs.integrals or (), strict=False)
+              if use and math.isfinite(q) and a > 0]
+    if not ratios or not snr_min:
+        return (0.0, 0.0)
+    return (float(np.median(ratios)), float(snr_min))
+
+
+#: a second component may leave this many of its orbits or the lines unexplained
+PARTNER_FLAWS = 2
+
+
+def _second_component(sizes, logs, picks, values, ln_s, weights, *, unexplained, tols, profile,
+                      partners,
+                      costs, cost_alone, mixture_cost, minor_component_cost):
+    """Try the unexplained lines as a second component; the best, if cheaper than impurities."""
+    def imp(j: int, ln_scale: float, top: float) -> float:
+        r = math.exp(logs[j] + ln_scale) / top if logs[j] is not None else 0.0
+        return costs[3] + costs[4] * r * r
+
+    top = float(values[0])
+    base = cost_alone - sum(imp(j, ln_s, top) for j in unexplained)
+    sub_logs = [logs[j] for j in unexplained]
+    sub_tols = None if tols is None else [tols[j] for j in unexplained]
+    total = sum(weights)
+    mine = sum(w for j, w in enumerate(weights) if picks[j] is not None)
+    best, n_left, own = None, len(unexplained), sorted(sizes)  # own: no second component
+    have = bool(logs) and logs[0] is not None
+    # without integrals only which component a line belongs to is labelled
+    coarse = list(picks) if have else [None if k is None else "own" for k in picks]
+    own_labels = labeling_cost(coarse)
+    for p_sizes, label in partners:
+        # a partner must be able to explain the left-over lines with few flaws
+        if sorted(p_sizes) == own or not (n_left - PARTNER_FLAWS <= len(p_sizes)
+                <= costs[1] * n_left + PARTNER_FLAWS):
+            continue
+        sub_cost, sub_picks, _v, sub_counts, sub_s = _fit(p_sizes, sub_logs, costs, sub_tols)
+        # lines neither component explains are impurities of the sample: judge their
+        # strength against the candidate's own scale, not the partner's
+        for i, k in enumerate(sub_picks):
+            if k is None:
+                j = unexplained[i]
+                sub_cost += imp(j, ln_s, top) - imp(j, sub_s, float(max(p_sizes)))
+        # which line is of which kind (either component's orbits, impurity) is itself a
+        # choice fitted to the data: the labelling of all lines replaces the single one's
+        kinds = list(coarse)
+        for i, k in enumerate(sub_picks):
+            if k is not None:
+                kinds[unexplained[i]] = ("partner", k if have else None)
+        if profile:
+            cost = base + sub_cost + mixture_cost + labeling_cost(kinds) - own_labels
+        else:  # which lines belong to the partner: ln C(lines, partner lines)
+            m = sum(1 for k in sub_picks if k is not None)
+            cost = base + sub_cost + mixture_cost + (math.lgamma(len(logs) + 1)
+                                                     - math.lgamma(m + 1)
+                                                     - math.lgamma(len(logs) - m + 1))
+        minor = mine < 0.5 * total
+        if minor:
+            cost += minor_component_cost
+        if best is None or cost < best["cost"] - 1e-12:
+            used = [unexplained[i] for i, k in enumerate(sub_picks) if k is not None]
+            n_used = sum(sum(k) for k in sub_picks if k is not None)
+            merges = sum(sum(k) - 1 for k in sub_picks if k is not None)
+            flaws = (sum(sub_counts) - n_used) + merges + (len(sub_picks) - len(used))
+            best = {"cost": cost, "label": label, "flaws": flaws,
+                    "pattern": Candidate("C", sum(p_sizes), 0, "", p_sizes).pattern,
+                    "lines": used, "fraction": sum(weights[j] for j in used) / total,
+                    "own_fraction": mine / total, "minor": minor}
+    if best is None or best["cost"] >= cost_alone:
+        return None
+    return best
