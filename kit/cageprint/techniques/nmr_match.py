@@ -76,7 +76,7 @@ def _assign(sizes, logs, ln_scale, costs, tols=None):
     n_opt = len(options)
     top = float(values[0])
     n_lines = len(logs)
-    if n_lines and logs[0] is not None:
+    if have:
         shifted = np.array([ell + ln_scale for ell in logs])
         spread = np.full(n_lines, tol) if tols is None else np.asarray(tols, float)
         z = (shifted[:, None] - log_contents[None, :]) / spread[:, None]
@@ -410,10 +410,8 @@ def _second_component(sizes, logs, picks, values, ln_s, weights, *, unexplained,
     total = sum(weights)
     mine = sum(w for j, w in enumerate(weights) if picks[j] is not None)
     best, n_left, own = None, len(unexplained), sorted(sizes)  # own: no second component
-    have = bool(logs) and logs[0] is not None
-    # without integrals only which component a line belongs to is labelled
-    coarse = list(picks) if have else [None if k is None else "own" for k in picks]
-    own_labels = labeling_cost(coarse)
+    # a profile always has integrals (its S/N per unit area comes from them)
+    own_labels = labeling_cost(picks) if profile else 0.0
     for p_sizes, label in partners:
         # a partner must be able to explain the left-over lines with few flaws
         if sorted(p_sizes) == own or not (n_left - PARTNER_FLAWS <= len(p_sizes)
@@ -426,13 +424,13 @@ def _second_component(sizes, logs, picks, values, ln_s, weights, *, unexplained,
             if k is None:
                 j = unexplained[i]
                 sub_cost += imp(j, ln_s, top) - imp(j, sub_s, float(max(p_sizes)))
-        # which line is of which kind (either component's orbits, impurity) is itself a
-        # choice fitted to the data: the labelling of all lines replaces the single one's
-        kinds = list(coarse)
-        for i, k in enumerate(sub_picks):
-            if k is not None:
-                kinds[unexplained[i]] = ("partner", k if have else None)
         if profile:
+            # which line is of which kind (either component's orbits, impurity) is itself
+            # a choice fitted to the data: the labelling of all lines replaces the single one's
+            kinds = list(picks)
+            for i, k in enumerate(sub_picks):
+                if k is not None:
+                    kinds[unexplained[i]] = ("partner", k)
             cost = base + sub_cost + mixture_cost + labeling_cost(kinds) - own_labels
         else:  # which lines belong to the partner: ln C(lines, partner lines)
             m = sum(1 for k in sub_picks if k is not None)
