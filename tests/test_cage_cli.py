@@ -84,10 +84,11 @@ def test_columns_can_be_extended(monkeypatch, capsys):
 
 
 def test_warm_up_runs_every_kernel(capsys):
-    # issue 16: one warm-up compiles and caches the kernels (search, spirals, symmetry)
+    # issue 16: one warm-up compiles and caches the kernels (search, spirals, symmetry, 13C)
     assert main(["warm-up"]) == 0
     out = capsys.readouterr().out.splitlines()
     assert [ln.split(":")[0] for ln in out[:-1]] == [
         "isomer search, all isomers (C40)", "isomer search, IPR (C80)",
-        "spiral wind-up and canonical spiral (C60)", "symmetry and fingerprint (C60)"]
+        "spiral wind-up and canonical spiral (C60)", "symmetry and fingerprint (C60)",
+        "13C line matching (C70 pattern)"]
     assert out[-1].startswith("ready")

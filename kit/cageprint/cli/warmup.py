@@ -1,8 +1,8 @@
 """``cageprint warm-up``: compile and cache every compiled kernel once, ahead of work.
 
-The cage search, the spiral kernels and the symmetry kernels are compiled by numba on
-first use and cached on disk; a fresh install (or a Binder image) pays that once, here,
-instead of in the middle of the first screen.
+The cage search, the spiral kernels, the symmetry kernels and the 13C matching kernels
+are compiled by numba on first use and cached on disk; a fresh install (or a Binder
+image) pays that once, here, instead of in the middle of the first screen.
 """
 
 from __future__ import annotations
@@ -13,6 +13,7 @@ from collections.abc import Callable
 
 from ..cage import Cage, iter_isomers
 from ..symmetry import fingerprint
+from ..techniques.nmr import NmrObservation, compare_nmr
 
 #: the C60 Ih spiral (pentagon positions), a fixed cage to run every kernel on
 _C60_IH = (1, 7, 9, 11, 13, 15, 18, 20, 22, 24, 26, 32)
@@ -29,7 +30,13 @@ def _steps() -> list[tuple[str, Callable[[], object]]]:
         ("spiral wind-up and canonical spiral (C60)", canonical),
         ("symmetry and fingerprint (C60)",
          lambda: fingerprint(Cage.from_spiral(60, _C60_IH)).point_group),
+        ("13C line matching (C70 pattern)", _nmr_match),
     ]
+
+
+def _nmr_match():
+    obs = NmrObservation((130.3, 144.8, 146.8, 147.5, 150.1), (10.5, 19.0, 21.0, 9.5, 10.2))
+    return compare_nmr((10, 10, 10, 20, 20), obs).verdict
 
 
 def warm_up() -> list[tuple[str, float]]:
@@ -47,7 +54,7 @@ def add_parser(sub) -> argparse.ArgumentParser:
         "warm-up",
         help="compile and cache the compiled kernels once (after installing)",
         description="Compile and cache every compiled kernel (cage search, spirals, "
-        "symmetry) so that later runs start at full speed.",
+        "symmetry, 13C matching) so that later runs start at full speed.",
     )
 
 

@@ -48,17 +48,18 @@ from ..spectra import integrate, pick_peaks, references
 from ..symmetry import predict_nmr  # re-exported: one module per technique
 from ..verdict import TechniqueVerdict
 from .nmr_match import (
-    PARTNER_FLAWS,
     _crowding,
+    _crowding_factor,
     _detection,
     _fit,
     _line_tols,
     _orbit_sizes,
     _partner_list,
-    _second_component,
     labeling_cost,
     missing_costs,
+    shared_spread,
 )
+from .nmr_mixture import PARTNER_FLAWS, _beside_major, _second_component
 from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
     ESTIMATE_C60_ANGLE_DEG,
     ESTIMATE_PPM_AT_C60,
@@ -432,10 +433,17 @@ def compare_nmr(
     costs = (integral_tol, max_merge, merge_cost, impurity_cost, impurity_strength_cost,
              missing_cost) + _detection(observation, use) + (_crowding(observation, len(sizes)),)
     tols = _line_tols(observation, integral_tol) if use else None
-    cost, picks, values, counts, ln_s = _fit(sizes, logs, costs, tols)
     # a profile's lines are labelled with impurities as one more kind; a peak list (no
     # S/N, no widths) keeps the labelling of the predicted orbits alone
     profile = bool(costs[6])
+    spread = integral_tol
+    if profile and tols is not None:
+        patterns = tuple(sorted({sizes} | {p for p, _ in _partner_list(partners)}))
+        spread = shared_spread(patterns, tuple(logs), costs[:8], tols,
+                               _crowding_factor(observation))
+        tols = _line_tols(observation, spread)
+        costs = (spread,) + costs[1:]
+    cost, picks, values, counts, ln_s = _fit(sizes, logs, costs, tols)
     if use:
         cost += labeling_cost(picks if profile else sizes)
     mixture = None
@@ -448,6 +456,14 @@ def compare_nmr(
                                     minor_component_cost=minor_component_cost)
         if mixture is not None:
             cost = mixture["cost"]
+    if profile and partners:  # the candidate as the minor isomer beside another pattern
+        beside = _beside_major(sizes, logs, weights, tols=tols, costs=costs,
+                               partners=_partner_list(partners), cost_alone=cost,
+                               crowding=_crowding_factor(observation),
+                               mixture_cost=mixture_cost,
+                               minor_component_cost=minor_component_cost)
+        if beside is not None:
+            mixture, cost, picks, ln_s = beside, beside["cost"], beside["picks"], beside["ln_s"]
     lost_expected = float(np.dot(counts, np.exp(-missing_costs(values, ln_s if use else None,
                                                                costs))))
     return _verdict(observation, sizes, pattern, cost, picks, values, counts=counts, ln_s=ln_s,
