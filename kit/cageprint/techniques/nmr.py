@@ -468,6 +468,7 @@ def compare_nmr(
                                                                costs))))
     return _verdict(observation, sizes, pattern, cost, picks, values, counts=counts, ln_s=ln_s,
                     use=use, lost_expected=lost_expected, tol=integral_tol,
+                    spread=spread if profile else None,
                     impurity_allowance=impurity_allowance,
                     lost_allowance=lost_allowance, minor_fraction=minor_fraction,
                     weights=weights, mixture=mixture)
@@ -486,7 +487,7 @@ def _intensity_word(v: int, top: int) -> str:
 
 
 def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, lost_expected, tol,
-             impurity_allowance, lost_allowance, minor_fraction, weights, mixture):
+             spread, impurity_allowance, lost_allowance, minor_fraction, weights, mixture):
     n_obs, n_pred = obs.n_lines, len(sizes)
     partner_lines = set(mixture["lines"]) if mixture else set()
     imp_idx = [j for j, k in enumerate(picks) if k is None and j not in partner_lines]
@@ -552,7 +553,12 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, los
                        f"(tolerance {100 * tol:.0f} %).")
     lost_limit = max(2, math.floor(lost_allowance * n_pred))
     too_many = len(impurities) > impurity_allowance and imp_fraction > minor_fraction
-    if too_many or lost > lost_limit:
+    # a minor component's orbits may hide under the major's lines (its cost carries them)
+    hidden = bool(mixture and mixture["minor"]) and lost > lost_limit
+    if hidden:
+        reasons.append(f"As the minor component, {lost} of its orbits merged or missing may "
+                       "lie under the major component's lines.")
+    if too_many or (lost > lost_limit and not hidden):
         verdict = "ruled out"
         why = []
         if too_many:
@@ -581,6 +587,7 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, los
         "missing_orbits": missing, "missing_expected": lost_expected, "merged_orbits": extra,
         "merged_lines": [[p, int(sum(k))] for p, k in merged_lines],
         "rms_log_integral_error": rms, "carbons_per_unit_area": math.exp(ln_s) if use else None,
+        "spread": spread,
         "assignment": [None if k is None
                        else int(sum(ki * v for ki, v in zip(k, values, strict=True)))
                        for k in picks],
