@@ -14,6 +14,7 @@ import math
 from typing import Any
 
 import numpy as np
+from scipy.special import ndtr
 
 from ..cage._kernels import njit  # numba, or plain Python without it
 from ..candidate import Candidate
@@ -159,10 +160,7 @@ def detection_probability(expected_snr, snr_min: float, tol: float):
     """
     e = np.asarray(expected_snr, float)
     z = (e - snr_min) / np.sqrt(1.0 + (tol * e) ** 2)
-    return 0.5 * (1.0 + _erf(z / math.sqrt(2.0)))
-
-
-_erf = np.vectorize(math.erf, otypes=[float])
+    return ndtr(z)
 
 
 def missing_costs(values, ln_scale, costs) -> np.ndarray:
