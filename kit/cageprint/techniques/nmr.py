@@ -9,25 +9,25 @@ predicted orbits, allowing what real spectra do:
 * two or three orbits on one line (accidental coincidence; intensities add),
 * orbits not seen (weak lines lost in noise),
 * a few impurity lines (cheap when weak, costly when as strong as the cage's own),
-* integrals off by 10-20 %,
-* a mixture: lines left over may be a second candidate's pattern at its own scale.
+* integrals off by 25 % or more (relaxation), weak lines by their noise too,
+* a mixture: the candidate beside a second pattern (profiles: either fitted first).
 
 Notes
 -----
-The comparison is a small dynamic programme over the observed lines.  Orbits
-of the same size are interchangeable (the shifts are not predicted), so the
-state is how many orbits of each distinct size have been used.  Each line is
-either an impurity (cost :data:`NMR_IMPURITY_COST`) or carries one to
-:data:`NMR_MAX_MERGE` orbits, costing the squared log-ratio of its scaled
-integral to the carbons it carries over :data:`NMR_INTEGRAL_TOL` (halved),
-plus :data:`NMR_MERGE_COST` per extra orbit.  Unused orbits cost
-:data:`NMR_MISSING_COST` each.  The integral scale (carbons per unit area) is
-fitted by alternating with the assignment.  When more lines are left over than
-:data:`NMR_IMPURITY_ALLOWANCE`, each other candidate pattern (``partners``) is
-fitted to them in turn; a mixture is assumed if that is cheaper than calling
-them impurities, counting :data:`NMR_MIXTURE_COST` plus ln C(lines, partner
-lines) for the freedom of splitting the lines between two components.  The
-score is minus the cost.
+A dynamic programme over the observed lines (:mod:`.nmr_match`): orbits of one size
+are interchangeable, so the state is how many of each size are used; a line is an
+impurity or carries one to :data:`NMR_MAX_MERGE` orbits, and the integral scale is
+fitted by alternating with the assignment.  Peak lists: the squared log-ratio of a
+line's scaled integral to its carbons over :data:`NMR_INTEGRAL_TOL` (halved),
+:data:`NMR_MERGE_COST` per extra orbit, :data:`NMR_MISSING_COST` per unseen orbit,
+:data:`NMR_IMPURITY_COST` per impurity; with more than :data:`NMR_IMPURITY_ALLOWANCE`
+lines left over, a partner pattern at :data:`NMR_MIXTURE_COST` plus ln C(lines, partner
+lines).  Profiles (S/N and widths known) are scored by a stated likelihood instead: one
+relaxation spread for all candidates (fitted, at least 25 %) widened per line by its
+noise, normalised line densities, unseen orbits priced by their expected S/N,
+coincidences by the crowding, a Poisson count of impurities, the labelling of all
+observed lines, and the mixture searched both ways (:mod:`.nmr_mixture`).  The score
+is minus the cost, in nats.
 """
 
 from __future__ import annotations
