@@ -56,6 +56,7 @@ from .nmr_match import (
     _orbit_sizes,
     _partner_list,
     labeling_cost,
+    line_noise,
     missing_costs,
     shared_spread,
 )
@@ -122,8 +123,6 @@ NMR_MAX_PARTNERS = 60
 #: verdict limits: impurity lines, and lost orbits (merged + missing) as a fraction
 NMR_IMPURITY_ALLOWANCE = 3
 NMR_LOST_ALLOWANCE = 0.5
-
-
 
 
 @dataclass(frozen=True)
@@ -435,11 +434,10 @@ def compare_nmr(
     tols = _line_tols(observation, integral_tol) if use else None
     # a profile's lines are labelled with impurities as one more kind; a peak list (no
     # S/N, no widths) keeps the labelling of the predicted orbits alone
-    profile = bool(costs[6])
-    spread = integral_tol
+    profile, spread, listed = bool(costs[6]), integral_tol, _partner_list(partners)
     if profile and tols is not None:
-        patterns = tuple(sorted({sizes} | {p for p, _ in _partner_list(partners)}))
-        spread = shared_spread(patterns, tuple(logs), costs[:8], tols,
+        patterns = tuple(sorted({sizes} | {p for p, _ in listed}))
+        spread = shared_spread(patterns, tuple(logs), costs[:8], line_noise(observation),
                                _crowding_factor(observation))
         tols = _line_tols(observation, spread)
         costs = (spread,) + costs[1:]
@@ -451,17 +449,15 @@ def compare_nmr(
     if len(unexplained) > impurity_allowance and partners:
         mixture = _second_component(sizes, logs, picks, values, ln_s, weights,
                                     unexplained=unexplained, tols=tols, profile=profile,
-                                    partners=_partner_list(partners)[:NMR_MAX_PARTNERS],
+                                    partners=listed[:NMR_MAX_PARTNERS],
                                     costs=costs, cost_alone=cost, mixture_cost=mixture_cost,
                                     minor_component_cost=minor_component_cost)
         if mixture is not None:
             cost = mixture["cost"]
     if profile and partners:  # the candidate as the minor isomer beside another pattern
-        beside = _beside_major(sizes, logs, weights, tols=tols, costs=costs,
-                               partners=_partner_list(partners), cost_alone=cost,
-                               crowding=_crowding_factor(observation),
-                               mixture_cost=mixture_cost,
-                               minor_component_cost=minor_component_cost)
+        beside = _beside_major(sizes, logs, weights, tols=tols, costs=costs, partners=listed,
+                               cost_alone=cost, crowding=_crowding_factor(observation),
+                               mixture_cost=mixture_cost, minor_component_cost=minor_component_cost)
         if beside is not None:
             mixture, cost, picks, ln_s = beside, beside["cost"], beside["picks"], beside["ln_s"]
     lost_expected = float(np.dot(counts, np.exp(-missing_costs(values, ln_s if use else None,

@@ -248,44 +248,61 @@ NMR_SPREAD_REFERENCE = 0.3
 NMR_SPREAD_BOUNDS = (0.25, 0.5)
 
 
+#: spreads tried for the shared relaxation spread, geometric between the bounds
+NMR_SPREAD_GRID = tuple(float(x) for x in np.geomspace(*NMR_SPREAD_BOUNDS, 5))
+
+
 @functools.lru_cache(maxsize=64)
-def shared_spread(patterns, logs, costs, tols, crowding: float = 0.0) -> float:
+def single_evidence(patterns, logs, costs, noise, crowding: float = 0.0) -> dict:
+    """``ln sum_p exp(-cost_p(s))`` over ``patterns`` for each spread ``s`` of
+    :data:`NMR_SPREAD_GRID`: how probable the lines are with each pattern alone taken
+    as equally likely a priori (labelling included).  ``noise`` holds each line's
+    log-integral error from noise (:func:`line_noise`); ``costs`` is without its
+    coincidence rate, which ``crowding`` (:func:`_crowding_factor`) gives each pattern.
+    """
+    out = {}
+    for s in NMR_SPREAD_GRID:
+        tols = tols_at(s, noise)
+        trial = (s,) + tuple(costs[1:8])
+        fits = []
+        for sizes in patterns:
+            res = _fit(sizes, logs, trial + (coincidence_rate(crowding, len(sizes)),), tols)
+            fits.append(-(res[0] + labeling_cost(res[1])))
+        top = max(fits)
+        out[s] = top + math.log(sum(math.exp(f - top) for f in fits))
+    return out
+
+
+def shared_spread(patterns, logs, costs, noise, crowding: float = 0.0) -> float:
     """The relaxation spread of a spectrum's integrals, shared by every candidate.
 
-    The pattern among ``patterns`` that explains the lines best at the spread
-    ``costs[0]`` (labelling included) is taken as the reference, and the spread is the
-    maximum-likelihood one of its assigned lines, their noise (``tols``) removed,
-    within :data:`NMR_SPREAD_BOUNDS`.  One value for all candidates: a spread fitted
-    per candidate would reward the patterns whose many orbit kinds let each line pick
-    the nearest content (common practice, no source: empirical Bayes).  ``costs`` is
-    without its coincidence rate, which ``crowding`` (:func:`_crowding_factor`) gives
-    each pattern.
+    The spread on :data:`NMR_SPREAD_GRID` of the highest :func:`single_evidence`
+    (common practice, no source: empirical Bayes, type-II maximum likelihood).  One value
+    for all candidates: a spread fitted per candidate would reward the patterns whose
+    many orbit kinds let each line pick the nearest content; a spread taken from the
+    single best pattern at a loose first guess lets a wrong pattern that needs a loose
+    spread set it for all.
     """
-    sigma0 = float(costs[0])
-    fits = []
-    for sizes in patterns:
-        res = _fit(sizes, logs, tuple(costs[:8]) + (coincidence_rate(crowding, len(sizes)),),
-                   tols)
-        fits.append((res[0] + labeling_cost(res[1]), res))
-    if not fits:
-        return sigma0
-    spread = _ml_spread(min(fits, key=lambda f: f[0])[1], logs, tols, sigma0)
-    return sigma0 if spread is None else spread
+    if not patterns:
+        return float(costs[0])
+    evidence = single_evidence(patterns, logs, costs, noise, crowding)
+    return max(evidence, key=evidence.get)
 
 
-def _ml_spread(res, logs, tols, sigma0):
-    """Maximum-likelihood spread of the lines a fit assigned, their noise removed."""
-    _c, picks, values, _counts, ln_s = res
-    terms = []
-    for j, k in enumerate(picks):
-        if k is not None:
-            c = sum(ki * v for ki, v in zip(k, values, strict=True))
-            noise2 = max(tols[j] ** 2 - sigma0 ** 2, 0.0) if tols is not None else 0.0
-            terms.append((logs[j] + ln_s - math.log(c)) ** 2 - noise2)
-    if len(terms) < 3:
+def line_noise(obs) -> tuple[float, ...] | None:
+    """Each line's log-integral error from noise alone (0 where its S/N is unknown)."""
+    if not any(math.isfinite(q) for q in obs.snr):
         return None
-    lo, hi = NMR_SPREAD_BOUNDS
-    return min(max(math.sqrt(max(sum(terms) / len(terms), 0.0)), lo), hi)
+    return tuple(NMR_NOISE_AREA_FACTOR / q if math.isfinite(q) and q > 0 else 0.0
+                 for q in obs.snr)
+
+
+def tols_at(spread: float, noise) -> tuple[float, ...] | None:
+    """Each line's log-integral spread: the relaxation ``spread`` and its ``noise``
+    (:func:`line_noise`) in quadrature."""
+    if noise is None:
+        return None
+    return tuple(math.hypot(spread, n) for n in noise)
 
 
 def _fit_merges(sizes, logs, costs, tols=None):
@@ -459,10 +476,7 @@ NMR_NOISE_AREA_FACTOR = 1.0
 
 def _line_tols(obs, tol: float) -> tuple[float, ...] | None:
     """Each line's log-integral spread: the relaxation spread and its noise, in quadrature."""
-    if not any(math.isfinite(q) for q in obs.snr):
-        return None
-    return tuple(math.hypot(tol, NMR_NOISE_AREA_FACTOR / q) if math.isfinite(q) and q > 0
-                 else tol for q in obs.snr)
+    return tols_at(tol, line_noise(obs))
 
 
 def _crowding(obs, n_orbits: int) -> float:
