@@ -8,12 +8,14 @@ template's defaults stay visible).  For every notebook two files are written:
 * ``NAME.ipynb``: the executed copy **without** widget state (a plotly
   FigureWidget would add ~5 MB of front-end code to it and still not
   re-render without a kernel); live-widget outputs keep a one-line note;
-* ``NAME.html``: an HTML export in which the static figures carry plotly.js
-  once, embedded, and no ``<script src=...>`` points to the internet.
+* ``NAME.html``: an HTML export whose static figures draw with plotly.js from
+  ``plotly-VERSION.min.js`` in the same folder (written once per folder, ~5 MB,
+  shared by every notebook there), and no ``<script src=...>`` points to the internet.
 
 Figures survive both because the kernel is started with
 ``PLOTLY_RENDERER=plotly_mimetype+notebook`` (JupyterLab draws the mimetype,
-the HTML export the embedded script).
+the HTML export the script); the plotly.js bundle that renderer embeds in each
+notebook is moved into the shared file, so a copy weighs its figures' data only.
 
 The heavy Jupyter packages are imported only when the command runs, so the
 command-line core stays importable without them.
@@ -48,6 +50,9 @@ _WIDGET_MIME = "application/vnd.jupyter.widget-view+json"
 _REMOTE_SCRIPT = re.compile(
     r"<script[^>]*\bsrc\s*=\s*[\"']?(?:https?:)?//[^>]*>\s*</script>", re.IGNORECASE
 )
+#: the plotly.js bundle the ``notebook`` renderer embeds (a licence banner opens it)
+_PLOTLYJS = re.compile(
+    r"<script>(/\*\*\s*\* plotly\.js v([0-9][0-9A-Za-z.+-]*)\s[\s\S]*?)</script>")
 _KEY = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _ANSI = re.compile(r"\x1b\[[0-9;]*[A-Za-z]")
 
@@ -152,6 +157,50 @@ def _tidy_widget_outputs(nb) -> None:
                 data["text/plain"] = WIDGET_NOTE
 
 
+def share_plotlyjs(nb, folder: str | os.PathLike) -> str | None:
+    """Move the plotly.js bundle embedded in an executed notebook into ``folder``.
+
+    Each bundle becomes ``plotly-VERSION.min.js`` in ``folder`` (written once: a file of
+    the same version and size is kept) and its inline script a ``<script src=...>`` to
+    that file, relative, so the notebook's HTML export beside it draws offline.  Returns
+    the file name, or None when the notebook embeds no bundle.
+
+    Examples
+    --------
+    >>> import nbformat, tempfile
+    >>> nb = nbformat.v4.new_notebook()
+    >>> cell = nbformat.v4.new_code_cell("fig")
+    >>> cell.outputs = [nbformat.v4.new_output("display_data", {"text/html":
+    ...     "<script>/**\\n* plotly.js v9.9.9\\n*/ var Plotly = {};</script>"})]
+    >>> nb.cells.append(cell)
+    >>> share_plotlyjs(nb, tempfile.mkdtemp())
+    'plotly-9.9.9.min.js'
+    >>> nb.cells[0].outputs[0].data["text/html"]
+    '<script src="plotly-9.9.9.min.js" charset="utf-8"></script>'
+    """
+    folder = pathlib.Path(folder)
+    names: list[str] = []
+
+    def move(m: re.Match) -> str:
+        name = f"plotly-{m.group(2)}.min.js"
+        data = m.group(1).encode("utf-8")
+        target = folder / name
+        if not (target.is_file() and target.stat().st_size == len(data)):
+            atomic_write_text(target, m.group(1))
+        names.append(name)
+        return f'<script src="{name}" charset="utf-8"></script>'
+
+    for cell in nb.cells:
+        for out in cell.get("outputs", []):
+            data = out.get("data") or {}
+            html = data.get("text/html")
+            if isinstance(html, list):
+                html = "".join(html)
+            if html and "plotly.js v" in html:
+                data["text/html"] = _PLOTLYJS.sub(move, html)
+    return names[0] if names else None
+
+
 def find_conclusion(nb) -> dict | None:
     """Return the last conclusion payload written in an executed notebook, or None."""
     found = None
@@ -167,8 +216,9 @@ def find_conclusion(nb) -> dict | None:
 def export_html(nb) -> str:
     """HTML of an executed notebook with every remote ``<script src=...>`` removed.
 
-    The static figures bring their own embedded plotly.js, so nothing is
-    lost offline; remote loaders (require.js, MathJax) would only fail there.
+    The static figures bring plotly.js (embedded, or the shared file of
+    :func:`share_plotlyjs`), so nothing is lost offline; remote loaders
+    (require.js, MathJax) would only fail there.
     """
     # lazy: notebook-extra packages, heavy; only run-notebooks needs them
     from nbconvert import HTMLExporter
@@ -253,6 +303,7 @@ def run_notebook(
     seconds = time.perf_counter() - t0
     nb.metadata.pop("widgets", None)
     _tidy_widget_outputs(nb)
+    share_plotlyjs(nb, out)
     ipynb = out / src.name
     nbformat.write(nb, ipynb)
     html = out / (src.stem + ".html")
