@@ -13,7 +13,8 @@ from ..session import Session
 
 __all__ = ["setup", "show", "RENDERER"]
 
-#: figures stay visible in the saved notebook and its HTML export (plotly.js embedded once)
+#: figures stay visible in the saved notebook and its HTML export (``run-notebooks`` moves
+#: the embedded plotly.js into one shared file beside them)
 RENDERER = "plotly_mimetype+notebook"
 
 
