@@ -387,3 +387,24 @@ def test_chooser_pages_through_every_isomer_and_sorts_all_of_them():
     assert chooser.page == 0
     orders = [r["order"] for r in chooser.visible_rows()]
     assert orders == sorted(orders, reverse=True) and len(orders) == 271
+
+
+def test_species_table_follows_the_loaded_mass_file(tmp_path):
+    # issue 15: "the species table below does not follow the loaded file". The demo fractions
+    # are invented (cageprint.demo): D holds Sc3N@C80, A holds C60 (their truth table).
+    from cageprint.demo import ensure_demo, load_truth
+    from cageprint.widgets import SpeciesTable
+
+    demo = ensure_demo(tmp_path / "demo")
+    truth = load_truth(demo)["fractions"]
+    s = Session()
+    loader = SpectrumLoader(s, folder=demo, technique="mass", initial="fraction-D-mass.csv")
+    table = SpeciesTable(s, loader)
+    assert "in fraction-D-mass.csv" in table.ui.value
+    assert f'data-key="{truth["D"]["formula"]}"' in table.ui.value
+    loader.file.value = "fraction-A-mass.csv"
+    assert "in fraction-A-mass.csv" in table.ui.value
+    assert f'data-key="{truth["A"]["formula"]}"' in table.ui.value
+    assert f'data-key="{truth["D"]["formula"]}"' not in table.ui.value
+    empty = SpeciesTable(Session())
+    assert "No mass spectrum loaded" in empty.ui.value

@@ -18,6 +18,7 @@ from .cageview import CageView, cage_figures
 from .chooser import CandidateChooser
 from .compare import ComparisonPanel, predicted_count
 from .loader import SpectrumLoader
+from .species import SpeciesTable, species_html
 
 __all__ = [
     "setup",
@@ -26,6 +27,8 @@ __all__ = [
     "CandidateChooser",
     "ComparisonPanel",
     "CageView",
+    "SpeciesTable",
+    "species_html",
     "AssignmentBoard",
     "cage_figures",
     "ranking_html",
