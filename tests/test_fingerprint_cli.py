@@ -27,8 +27,27 @@ def test_readable_table_shows_c70_pattern(capsys):
     # Dresselhaus, Dresselhaus & Eklund 1996: 31 IR- and 53 Raman-active modes
     assert main(["isomers", "70", "--ipr", "--columns", "all"]) == 0
     lines = capsys.readouterr().out.splitlines()
-    assert lines[0].split()[-6:] == COLUMNS
-    assert lines[1].split()[-6:] == ["D5h", "5", "2x20+3x10", "31", "53", "0.5293"]
+    assert lines[1].split()[:10] == ["C70", "1", "D5h", "5", "2x20+3x10", "31", "53", "0",
+                                     "0.5293", "1"]
+
+
+def test_readable_table_has_a_layout_of_its_own(capsys):
+    # issue 15: "the `isomers` listing lays out isomer number, the twelve pentagon positions,
+    # point group, pattern, counts and gap in the order of tables practitioners know from
+    # elsewhere": the readable table leads with point group, 13C lines and pattern, band
+    # counts, fused pentagons and gap, says which numbering it uses, and puts the spiral last;
+    # the CSV keeps its names and order for scripts (common practice, no source)
+    assert main(["isomers", "70", "--ipr", "--columns", "all"]) == 0
+    head = capsys.readouterr().out.splitlines()[0]
+    order = ["cage", "IPR no.", "point group", "13C lines", "13C pattern", "IR bands",
+             "Raman bands", "fused pentagon pairs", "gap/|β|", "face spiral"]
+    assert [head.index(h) for h in order] == sorted(head.index(h) for h in order)
+    assert head.rstrip().endswith("face spiral")
+    assert main(["isomers", "40"]) == 0
+    assert "all no." in capsys.readouterr().out.splitlines()[0]
+    assert main(["isomers", "70", "--ipr", "--csv", "--columns", "all"]) == 0
+    assert capsys.readouterr().out.splitlines()[0] == (
+        "formula,isomer,spiral,fused_pentagon_pairs," + ",".join(COLUMNS))
 
 
 def test_cages_alone_by_default_and_chosen_columns(capsys, monkeypatch):

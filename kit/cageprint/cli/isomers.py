@@ -49,6 +49,16 @@ COLUMNS += [
 CAGE_COLUMNS = ("formula", "isomer", "spiral", "fused_pentagon_pairs")
 
 
+#: the readable table's columns, in its order, with their headings: what a chemist asks first
+#: (symmetry, 13C lines, band counts, fused pentagons, gap), the face spiral last; the CSV
+#: keeps the column names and order of :data:`COLUMNS` for scripts
+READABLE = {"formula": ("cage", 6), "isomer": ("no.", 7), "point_group": ("point group", 11),
+            "nmr_lines": ("13C lines", 9), "nmr_pattern": ("13C pattern", 16),
+            "ir_active": ("IR bands", 8), "raman_active": ("Raman bands", 11),
+            "fused_pentagon_pairs": ("fused pentagon pairs", 20), "gap_beta": ("gap/|β|", 8),
+            "spiral": ("face spiral", 0)}
+
+
 def rows(n: int, ipr: bool = False, progress: bool = False,
          columns: tuple[str, ...] | None = None):
     """Yield the header, then one list of values per isomer.
@@ -117,13 +127,19 @@ def run(args: argparse.Namespace) -> int:
         for row in it:
             w.writerow(row)
         return 0
-    widths = [max(len(h), 8) if h != "spiral" else 40 for h in header]
-    fmt = "  ".join(f"{{:<{w}}}" for w in widths[:-1]) + "  {}"
-    out.write(fmt.format(*header).rstrip() + "\n")
+    order = [header.index(h) for h in READABLE if h in header]
+    shown = [READABLE[header[i]] for i in order]
+    # the number's heading says which numbering it is
+    shown = [(("IPR no." if args.ipr else "all no."), w) if t == "no." else (t, w)
+             for t, w in shown]
+    fmt = "  ".join(f"{{:<{max(len(t), w)}}}" for t, w in shown[:-1]) + "  {}"
+    if len(shown) == 1:
+        fmt = "{}"
+    out.write(fmt.format(*(t for t, _ in shown)).rstrip() + "\n")
     count = 0
     for row in it:
-        out.write(fmt.format(*map(str, row)).rstrip() + "\n")
+        out.write(fmt.format(*(str(row[i]) for i in order)).rstrip() + "\n")
         count += 1
-    kind = "IPR isomers" if args.ipr else "isomers"
+    kind = ("IPR isomer" if args.ipr else "isomer") + ("" if count == 1 else "s")
     out.write(f"{count} {kind} of C{args.n}\n")
     return 0
