@@ -381,3 +381,21 @@ def test_too_many_candidates_is_refused():
     with pytest.raises(SpectrumError, match=rf"candidate maxima pass prominence=0 .*\(more than "
                        rf"MAX_CANDIDATES={MAX_CANDIDATES}\); raise snr="):
         pick_peaks(s, snr=None, baseline=None)
+
+
+def test_baseline_is_remembered_per_spectrum_and_settings():
+    # a live panel re-picks the same spectrum at every new threshold: the baseline is kept,
+    # keyed by the data and the settings, and handed out as a copy (common practice, no source)
+    from cageprint.spectra import filters
+
+    x = np.linspace(0, 100, 4001)
+    y = 0.01 * x + np.exp(-((x - 50) / 0.5) ** 2)
+    s = Spectrum(x, y, technique="ir")
+    first, _ = filters.estimate_baseline(s)
+    first[:] = -1.0  # the caller's copy, not the memo's
+    again, diag = filters.estimate_baseline(s)
+    assert diag["method"] == "arpls" and abs(again[2000] - 0.5) < 0.05
+    other, _ = filters.estimate_baseline(Spectrum(x, y + 0.3, technique="ir"))
+    assert abs(other[2000] - again[2000] - 0.3) < 0.02
+    _, coarse = filters.estimate_baseline(s, lam=1e2)  # other settings: another entry
+    assert coarse["params"]["lam"] == 1e2 and diag["params"]["lam"] != 1e2

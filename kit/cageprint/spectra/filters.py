@@ -14,6 +14,8 @@ using asymmetrically reweighted penalized least squares smoothing", Analyst
 
 from __future__ import annotations
 
+import collections
+import hashlib
 from typing import Any
 
 import numpy as np
@@ -194,11 +196,45 @@ def estimate_baseline(
         raise SpectrumError(
             f"baseline method {method!r} is not one of {', '.join(BASELINE_METHODS)}"
         )
+    params = dict(params)
+    x, y = spectrum.x, spectrum.y
+    key = _baseline_key(x, y, method, params)
+    if key is not None and key in _BASELINES:
+        _BASELINES.move_to_end(key)
+        base, diag = _BASELINES[key]
+        return base.copy(), dict(diag)
+    base, diag = _fit_baseline(x, y, method, params)
+    if key is not None:
+        _BASELINES[key] = (base.copy(), dict(diag))
+        while len(_BASELINES) > BASELINE_MEMO:
+            _BASELINES.popitem(last=False)
+    return base, diag
+
+
+#: baselines kept (a live panel re-picks the same spectrum at each new threshold)
+BASELINE_MEMO = 8
+_BASELINES: collections.OrderedDict = collections.OrderedDict()
+
+
+def _baseline_key(x, y, method, params):
+    """The data and settings a baseline depends on, hashed; None if a setting is unhashable."""
+    try:
+        settings = (method, tuple(sorted(params.items())))
+        hash(settings)
+    except TypeError:
+        return None
+    digest = hashlib.blake2b(digest_size=16)
+    for a in (x, y):
+        a = np.ascontiguousarray(a, dtype=float)
+        digest.update(str(a.shape).encode())
+        digest.update(a.tobytes())
+    return settings + (digest.hexdigest(),)
+
+
+def _fit_baseline(x, y, method, params):
     # lazy: pybaselines is a heavy import; only the arPLS baseline needs it
     from pybaselines import Baseline
 
-    params = dict(params)
-    x, y = spectrum.x, spectrum.y
     factor = -(-x.size // BASELINE_MAX_POINTS)
     if factor > 1:
         m = x.size // factor

@@ -259,18 +259,31 @@ def single_evidence(patterns, logs, costs, noise, crowding: float = 0.0) -> dict
     as equally likely a priori (labelling included).  ``noise`` holds each line's
     log-integral error from noise (:func:`line_noise`); ``costs`` is without its
     coincidence rate, which ``crowding`` (:func:`_crowding_factor`) gives each pattern.
+
+    Every pattern is fitted at the grid spread nearest ``costs[0]``; at the other
+    spreads only those within :data:`NMR_EVIDENCE_WINDOW` of the best there (the rest
+    add less than ``exp(-window)`` to the sum).
     """
-    out = {}
-    for s in NMR_SPREAD_GRID:
+    def evidence(s, kept):
         tols = tols_at(s, noise)
         trial = (s,) + tuple(costs[1:8])
-        fits = []
-        for sizes in patterns:
+        fits = {}
+        for sizes in kept:
             res = _fit(sizes, logs, trial + (coincidence_rate(crowding, len(sizes)),), tols)
-            fits.append(-(res[0] + labeling_cost(res[1])))
-        top = max(fits)
-        out[s] = top + math.log(sum(math.exp(f - top) for f in fits))
-    return out
+            fits[sizes] = -(res[0] + labeling_cost(res[1]))
+        top = max(fits.values())
+        return top + math.log(sum(math.exp(f - top) for f in fits.values())), fits
+
+    first = min(NMR_SPREAD_GRID, key=lambda s: abs(s - costs[0]))
+    at_first, fits = evidence(first, patterns)
+    best = max(fits.values())
+    kept = [p for p in patterns if fits[p] > best - NMR_EVIDENCE_WINDOW]
+    return {s: at_first if s == first else evidence(s, kept)[0] for s in NMR_SPREAD_GRID}
+
+
+#: patterns further than this (nats) below the best at the first spread are left out of
+#: the evidence at the others
+NMR_EVIDENCE_WINDOW = 30.0
 
 
 def shared_spread(patterns, logs, costs, noise, crowding: float = 0.0) -> float:
