@@ -299,7 +299,7 @@ def shared_spread(patterns, logs, costs, noise, crowding: float = 0.0) -> float:
     if not patterns:
         return float(costs[0])
     evidence = single_evidence(patterns, logs, costs, noise, crowding)
-    return max(evidence, key=evidence.get)
+    return max(evidence, key=lambda s: evidence[s])
 
 
 def line_noise(obs) -> tuple[float, ...] | None:
