@@ -23,8 +23,8 @@ line's scaled integral to its carbons over :data:`NMR_INTEGRAL_TOL` (halved),
 :data:`NMR_IMPURITY_COST` per impurity; with more than :data:`NMR_IMPURITY_ALLOWANCE`
 lines left over, a partner pattern at :data:`NMR_MIXTURE_COST` plus ln C(lines, partner
 lines).  Profiles (S/N and widths known) are scored by a stated likelihood instead: one
-relaxation spread for all candidates (fitted, at least 25 %) widened per line by its
-noise, normalised line densities, unseen orbits priced by their expected S/N,
+relaxation spread for all candidates (of highest evidence on a 25-50 % grid), widened per
+line by its noise, normalised line densities, unseen orbits priced by their expected S/N,
 coincidences by the crowding, a Poisson count of impurities, the labelling of all
 observed lines, and the mixture searched both ways (:mod:`.nmr_mixture`).  The score
 is minus the cost, in nats.

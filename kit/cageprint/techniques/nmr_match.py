@@ -261,8 +261,8 @@ def single_evidence(patterns, logs, costs, noise, crowding: float = 0.0) -> dict
     coincidence rate, which ``crowding`` (:func:`_crowding_factor`) gives each pattern.
 
     Every pattern is fitted at the grid spread nearest ``costs[0]``; at the other
-    spreads only those within :data:`NMR_EVIDENCE_WINDOW` of the best there (the rest
-    add less than ``exp(-window)`` to the sum).
+    spreads only those that came within :data:`NMR_EVIDENCE_WINDOW` of the best one at
+    that first spread (the rest would add about ``exp(-window)`` of the sum).
     """
     def evidence(s, kept):
         tols = tols_at(s, noise)
