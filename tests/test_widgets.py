@@ -400,11 +400,11 @@ def test_species_table_follows_the_loaded_mass_file(tmp_path):
     s = Session()
     loader = SpectrumLoader(s, folder=demo, technique="mass", initial="fraction-D-mass.csv")
     table = SpeciesTable(s, loader)
-    assert "in fraction-D-mass.csv" in table.ui.value
-    assert f'data-key="{truth["D"]["formula"]}"' in table.ui.value
+    assert "in fraction-D-mass.csv" in table.table.value
+    assert f'data-key="{truth["D"]["formula"]}"' in table.table.value
     loader.file.value = "fraction-A-mass.csv"
-    assert "in fraction-A-mass.csv" in table.ui.value
-    assert f'data-key="{truth["A"]["formula"]}"' in table.ui.value
-    assert f'data-key="{truth["D"]["formula"]}"' not in table.ui.value
+    assert "in fraction-A-mass.csv" in table.table.value
+    assert f'data-key="{truth["A"]["formula"]}"' in table.table.value
+    assert f'data-key="{truth["D"]["formula"]}"' not in table.table.value
     empty = SpeciesTable(Session())
-    assert "No mass spectrum loaded" in empty.ui.value
+    assert "No mass spectrum loaded" in empty.table.value

@@ -128,10 +128,9 @@ def run(args: argparse.Namespace) -> int:
             w.writerow(row)
         return 0
     order = [header.index(h) for h in READABLE if h in header]
-    shown = [READABLE[header[i]] for i in order]
-    # the number's heading says which numbering it is
-    shown = [(("IPR no." if args.ipr else "all no."), w) if t == "no." else (t, w)
-             for t, w in shown]
+    number = "IPR no." if args.ipr else "all no."  # the heading says which numbering it is
+    shown = [(number, READABLE["isomer"][1]) if header[i] == "isomer" else READABLE[header[i]]
+             for i in order]
     fmt = "  ".join(f"{{:<{max(len(t), w)}}}" for t, w in shown[:-1]) + "  {}"
     if len(shown) == 1:
         fmt = "{}"

@@ -35,7 +35,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 
 from ..errors import NotebookRunError
-from ..fileio import atomic_write_text
+from ..fileio import atomic_write_bytes, atomic_write_text
 
 #: plotly renderer for kernels started here (see module docstring)
 PLOTLY_RENDERER = "plotly_mimetype+notebook"
@@ -186,7 +186,7 @@ def share_plotlyjs(nb, folder: str | os.PathLike) -> str | None:
         data = m.group(1).encode("utf-8")
         target = folder / name
         if not (target.is_file() and target.stat().st_size == len(data)):
-            atomic_write_text(target, m.group(1))
+            atomic_write_bytes(target, data)
         names.append(name)
         return f'<script src="{name}" charset="utf-8"></script>'
 

@@ -52,13 +52,13 @@ from .nmr_match import (
     _crowding_factor,
     _detection,
     _fit,
-    _line_tols,
     _orbit_sizes,
     _partner_list,
     labeling_cost,
     line_noise,
     missing_costs,
     shared_spread,
+    tols_at,
 )
 from .nmr_mixture import PARTNER_FLAWS, _beside_major, _second_component
 from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
@@ -431,15 +431,16 @@ def compare_nmr(
     weights = list(ints) if use else [1.0] * n_obs
     costs = (integral_tol, max_merge, merge_cost, impurity_cost, impurity_strength_cost,
              missing_cost) + _detection(observation, use) + (_crowding(observation, len(sizes)),)
-    tols = _line_tols(observation, integral_tol) if use else None
+    noise = line_noise(observation) if use else None
+    tols = tols_at(integral_tol, noise)
     # a profile's lines are labelled with impurities as one more kind; a peak list (no
     # S/N, no widths) keeps the labelling of the predicted orbits alone
     profile, spread, listed = bool(costs[6]), integral_tol, _partner_list(partners)
     if profile and tols is not None:
         patterns = tuple(sorted({sizes} | {p for p, _ in listed}))
-        spread = shared_spread(patterns, tuple(logs), costs[:8], line_noise(observation),
+        spread = shared_spread(patterns, tuple(logs), costs[:8], noise,
                                _crowding_factor(observation))
-        tols = _line_tols(observation, spread)
+        tols = tols_at(spread, noise)
         costs = (spread,) + costs[1:]
     cost, picks, values, counts, ln_s = _fit(sizes, logs, costs, tols)
     if use:

@@ -487,11 +487,6 @@ def labeling_cost(kinds) -> float:
 NMR_NOISE_AREA_FACTOR = 1.0
 
 
-def _line_tols(obs, tol: float) -> tuple[float, ...] | None:
-    """Each line's log-integral spread: the relaxation spread and its noise, in quadrature."""
-    return tols_at(tol, line_noise(obs))
-
-
 def _crowding(obs, n_orbits: int) -> float:
     """Expected chance that an orbit's line falls on another's (0 when line widths are unknown).
 

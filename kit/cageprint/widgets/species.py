@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import html
 from typing import Any
 
 import ipywidgets as w
@@ -10,6 +9,7 @@ import ipywidgets as w
 from .. import figures
 from ..errors import CageprintError
 from ..session import Session
+from ._common import Problem
 
 #: columns of the species table, in order
 SPECIES_COLUMNS = ("formula", "charge", "m/z (mono)", "relative", "error / ppm", "envelope fit",
@@ -55,24 +55,25 @@ class SpeciesTable:
     def __init__(self, session: Session, loader: Any = None):
         self.session = session
         self.loader = loader
-        self.ui = w.HTML()
-        self.ui.add_class("cp-species")
+        self.problem = Problem("cp-species-error")
+        self.table = w.HTML()
+        self.table.add_class("cp-species")
+        self.ui = w.VBox([self.problem.widget, self.table])
         if loader is not None:
             loader.on_loaded(self.refresh)
         self.refresh()
 
     def refresh(self, *_: Any) -> None:
         """Redraw from the session's current mass observation."""
+        self.problem.clear()
         if not self.session.has_data("mass"):
-            self.ui.value = '<p class="cp-note">No mass spectrum loaded yet.</p>'
+            self.table.value = '<p class="cp-note">No mass spectrum loaded yet.</p>'
             return
         source = (getattr(self.loader, "source", None)
                   or self.session.spectra["mass"].meta.get("title", ""))
         try:
             obs = self.session.observation("mass")
-        except CageprintError as exc:  # shown, not swallowed
-            self.ui.value = (f'<div class="cp-problem" role="alert" style="color:#9b1c1c">'
-                             f"Could not find species in {html.escape(str(source))}: "
-                             f"{html.escape(str(exc))}</div>")
+        except CageprintError as exc:  # shown, not swallowed; the last table stays
+            self.problem.show(f"Could not find species in {source}: {exc}")
             return
-        self.ui.value = species_html(obs, str(source))
+        self.table.value = species_html(obs, str(source))
