@@ -321,6 +321,31 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
     return True
 
 
+@njit(cache=True)
+def _fill_bound(nf):
+    """``u[m, q]``: the most faces a rim of ``m`` faces can enclose with ``q < 6`` pentagons.
+
+    The faces inside a rim of ``m`` faces that touch it number at most
+    ``m + q - 6`` (or one face touching the whole rim).  Counting the free
+    edges of the rim with Euler's formula for the placed disc (sum of free
+    edges = 2m - 6 + q) and walking round the rim, each rim face's inner
+    neighbours follow one another and neighbouring rim faces share one.  Those
+    faces bound the next, smaller ring, whose own inner ring is at most
+    ``q - 6`` shorter again, and so on until one face or none is left.  With
+    ``q >= 6`` the rings need not shrink and there is no bound.
+    """
+    u = np.zeros((nf + 2, 6), np.int64)
+    for m in range(nf + 2):
+        for q in range(6):
+            tot = 0
+            a = m + q - 6
+            while a > 0:
+                tot += a
+                a += q - 6
+            u[m, q] = tot + 1
+    return u
+
+
 def new_search_state(n):
     """Arrays holding a resumable depth-first search over spirals of C``n``."""
     nf = n // 2 + 2
@@ -364,6 +389,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     uout = np.zeros(nf, np.int64)
     kmin = ctl[5]
     kstop = ctl[6]
+    umax = _fill_bound(nf)
     if ctl[2] == 0:
         ctl[2] = 1
         size[0] = 5
@@ -520,6 +546,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
                 ipr and q > 0 and left < 2 * q - (0 if s == 5 else 1)
             ):
                 ok = False
+            elif k >= 2 and q < 6 and left > umax[m, q]:
+                ok = False  # more faces left than the rim can enclose (see _fill_bound)
         if not ok:
             for j in range(deg[k]):
                 deg[nbr[k, j]] -= 1
