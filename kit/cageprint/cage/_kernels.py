@@ -31,6 +31,7 @@ except ImportError:  # pragma: no cover - exercised only without numba
             return args[0]
         return lambda f: f
 
+from ._prune import fill_bound, memo_has, memo_key, memo_put  # noqa: E402
 
 # status codes of _place (spiral.py turns them into words)
 OK = 0
@@ -321,31 +322,6 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
     return True
 
 
-@njit(cache=True)
-def _fill_bound(nf):
-    """``u[m, q]``: the most faces a rim of ``m`` faces can enclose with ``q < 6`` pentagons.
-
-    The faces inside a rim of ``m`` faces that touch it number at most
-    ``m + q - 6`` (or one face touching the whole rim).  Counting the free
-    edges of the rim with Euler's formula for the placed disc (sum of free
-    edges = 2m - 6 + q) and walking round the rim, each rim face's inner
-    neighbours follow one another and neighbouring rim faces share one.  Those
-    faces bound the next, smaller ring, whose own inner ring is at most
-    ``q - 6`` shorter again, and so on until one face or none is left.  With
-    ``q >= 6`` the rings need not shrink and there is no bound.
-    """
-    u = np.zeros((nf + 2, 6), np.int64)
-    for m in range(nf + 2):
-        for q in range(6):
-            tot = 0
-            a = m + q - 6
-            while a > 0:
-                tot += a
-                a += q - 6
-            u[m, q] = tot + 1
-    return u
-
-
 def new_search_state(n):
     """Arrays holding a resumable depth-first search over spirals of C``n``."""
     nf = n // 2 + 2
@@ -358,6 +334,9 @@ def new_search_state(n):
         "tri": np.zeros((n, 3), np.int64),
         "nxt": -np.ones((nf, nf), np.int64),
         "psave": np.zeros((nf + 1, 6), np.int64),
+        # per face: its state key if it may be remembered as dead, and the windups then
+        "mkey": np.zeros(nf + 1, np.int64),
+        "wmark": np.zeros(nf + 1, np.int64),
         "tried": np.zeros(nf + 1, np.int64),
         # [k, pentagons placed, started, nodes visited, complete windups,
         #  first face searched (faces before it are a given prefix), depth of a leaf]
@@ -367,7 +346,8 @@ def new_search_state(n):
 
 
 @njit(cache=True, nogil=True)
-def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_out):
+def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_out,
+           mkey, wmark, table):
     """Resumable depth-first search for canonical spirals in lexicographic order.
 
     Face 0 is always a pentagon (a canonical spiral starts at one).  At each
@@ -380,6 +360,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     ``size[:d]``; ``ctl[6] = d < F`` instead lists the partial spirals of
     ``d`` faces (rows of their pentagon positions, padded with 0) without
     going deeper.  The two together split a search into independent parts.
+    ``table`` remembers dead states (:mod:`~cageprint.cage._prune`; length 1: off).
     """
     nf = size.shape[0]
     nout = 0
@@ -389,7 +370,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     uout = np.zeros(nf, np.int64)
     kmin = ctl[5]
     kstop = ctl[6]
-    umax = _fill_bound(nf)
+    umax = fill_bound(nf)
+    memo = kstop >= nf and table.shape[0] > 1  # dead states are known only in a full search
     if ctl[2] == 0:
         ctl[2] = 1
         size[0] = 5
@@ -428,6 +410,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             # nothing more to try at face k: take face k - 1 off again
             k -= 1
             if k >= kmin:
+                if mkey[k] != 0 and windups == wmark[k]:  # nothing closed below: dead
+                    memo_put(table, mkey[k])
                 for j in range(deg[k]):
                     deg[nbr[k, j]] -= 1
                 deg[k] = 0
@@ -547,7 +531,14 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             ):
                 ok = False
             elif k >= 2 and q < 6 and left > umax[m, q]:
-                ok = False  # more faces left than the rim can enclose (see _fill_bound)
+                ok = False  # more faces left than the rim can enclose (see fill_bound)
+        mkey[k] = 0
+        if ok and memo and k >= 2 and k < nf - 1:
+            key = memo_key(bnd, h, t, size, deg, q, left, ipr)
+            if key != 0 and memo_has(table, key):
+                ok = False  # met before, and nothing closed from it
+            else:
+                mkey[k] = key
         if not ok:
             for j in range(deg[k]):
                 deg[nbr[k, j]] -= 1
@@ -561,6 +552,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         ptr[4] = slot
         ptr[5] = old
         npent = np_after
+        wmark[k] = windups
         k += 1
         if k < nf:
             tried[k] = 0

@@ -40,6 +40,7 @@ from __future__ import annotations
 
 import itertools
 import os
+import threading
 from collections import deque
 from collections.abc import Iterator
 from concurrent.futures import ThreadPoolExecutor
@@ -49,6 +50,7 @@ import numpy as np
 
 from ..errors import CageError
 from . import _kernels as K
+from ._prune import new_memo
 from .spiral import check_n
 
 __all__ = ["iter_spirals", "count_isomers", "isomer_rank"]
@@ -67,6 +69,26 @@ SPLIT_MIN_FACES_IPR = 46
 SPLIT_PARTS = 256
 
 
+_LOCAL = threading.local()
+_OFF = np.zeros(1, np.int64)
+
+#: remember dead states in all-isomer searches (in IPR searches they rarely recur)
+MEMO_ALL = True
+MEMO_IPR = False
+
+
+def _memo(ipr: bool) -> np.ndarray:
+    # one dead-state table per thread, kept between searches (keys hold no cage size)
+    if not (MEMO_IPR if ipr else MEMO_ALL):
+        return _OFF
+    name = "ipr" if ipr else "all"
+    table = getattr(_LOCAL, name, None)
+    if table is None:
+        table = new_memo()
+        setattr(_LOCAL, name, table)
+    return table
+
+
 def _run(st, ipr: bool, first: int = 64) -> Iterator[np.ndarray]:
     # drive one compiled search to its end, handing over batches
     size = first
@@ -75,6 +97,7 @@ def _run(st, ipr: bool, first: int = 64) -> Iterator[np.ndarray]:
         found, done = K.search(
             st["size"], st["deg"], st["nbr"], st["bnd"], st["ptr"], st["tri"], st["nxt"],
             st["psave"], st["tried"], st["ctl"], bool(ipr), out, size,
+            st["mkey"], st["wmark"], _memo(ipr),
         )
         if found:
             yield out[:found]

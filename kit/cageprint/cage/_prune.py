@@ -1,0 +1,124 @@
+"""Exact cuts of the spiral search (compiled with numba when available), kept apart from it.
+
+Two cuts drop partial spirals that cannot close, without changing what the
+search finds (the complete spirals, canonical or not, stay the same; the
+test suite compares the lists and the number of complete spirals):
+
+- :func:`fill_bound`: a rim that cannot enclose the faces still to be laid.
+- A memo of dead states.  What can follow a partial spiral depends only on
+  its rim (the free edges of each rim face, oldest face first; with
+  isolated pentagons also which rim faces are pentagons), the pentagons left
+  and the faces left; the faces inside the rim play no part until the
+  spiral is complete.  A state from which no spiral closed is packed
+  exactly into one integer (:func:`memo_key`) and kept in a small open-address
+  table; meeting it again cuts the subtree.  A full table overwrites old
+  entries, which only forgets, never errs.
+
+Nothing in this module is public.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+try:  # numba is a core dependency; the fallback keeps a source checkout usable
+    from numba import njit
+except ImportError:  # pragma: no cover - exercised only without numba
+
+    def njit(*args, **kwargs):
+        if args and callable(args[0]):
+            return args[0]
+        return lambda f: f
+
+#: states are remembered with at most this many faces left (deeper ones rarely recur)
+MEMO_LEFT = 14
+#: and with a rim of at most this many faces (so the key fits one 64-bit integer)
+MEMO_RIM = 24
+#: table entries per search thread (8 bytes each)
+MEMO_SIZE = 1 << 20
+#: how many neighbouring slots a key may take
+_PROBES = 4
+#: a 64-bit odd multiplier (golden ratio), as a signed integer so numba keeps int64
+_MIX = -7046029254386353131
+
+
+@njit(cache=True)
+def fill_bound(nf):
+    """``u[m, q]``: the most faces a rim of ``m`` faces can enclose with ``q < 6`` pentagons.
+
+    The free edges of the ``m`` rim faces number ``2m - 6 + q`` (Euler's
+    formula for the placed disc).  Walking round the rim, each rim face's
+    inner neighbours follow one another and neighbouring rim faces share one,
+    so at most ``m + q - 6`` faces touch the rim (or a single face touching
+    all of it).  They bound the rest, whose own outer ring is at most
+    ``q - 6`` shorter again, and so on until one face or none is left.  With
+    ``q >= 6`` the rings need not shrink and there is no bound.
+    """
+    u = np.zeros((nf + 2, 6), np.int64)
+    for m in range(nf + 2):
+        for q in range(6):
+            tot = 0
+            a = m + q - 6
+            while a > 0:
+                tot += a
+                a += q - 6
+            u[m, q] = tot + 1
+    return u
+
+
+@njit(cache=True, inline="always")
+def memo_key(bnd, h, t, size, deg, q, left, ipr):
+    """The state after a face is laid, packed into one positive integer (0: not kept)."""
+    m = t - h
+    if left > MEMO_LEFT or m > MEMO_RIM or (ipr and m > MEMO_RIM * 2 // 3):
+        return 0
+    key = m | (q << 5) | (left << 9)
+    shift = 14
+    for i in range(m):
+        f = bnd[h + i]
+        r = size[f] - deg[f] - 1  # free edges, 1..4
+        if r < 0 or r > 3:
+            return 0
+        key |= r << shift
+        shift += 2
+        if ipr:
+            key |= (size[f] - 5) << shift
+            shift += 1
+    return key + 1
+
+
+@njit(cache=True, inline="always")
+def _slot(key, cap):
+    x = key * _MIX
+    x ^= (x >> 31) & 0x1FFFFFFFF
+    return x & (cap - 1)
+
+
+@njit(cache=True, inline="always")
+def memo_has(table, key):
+    cap = table.shape[0]
+    j0 = _slot(key, cap)
+    for p in range(_PROBES):
+        v = table[(j0 + p) & (cap - 1)]
+        if v == key:
+            return True
+        if v == 0:
+            return False
+    return False
+
+
+@njit(cache=True, inline="always")
+def memo_put(table, key):
+    cap = table.shape[0]
+    j0 = _slot(key, cap)
+    j = j0
+    for p in range(_PROBES):
+        if table[(j0 + p) & (cap - 1)] == 0:
+            j = (j0 + p) & (cap - 1)
+            break
+    table[j] = key
+
+
+def new_memo() -> np.ndarray:
+    """An empty dead-state table (one per search thread; any cage size may share it)."""
+    return np.zeros(MEMO_SIZE, np.int64)
