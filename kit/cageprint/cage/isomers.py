@@ -12,15 +12,23 @@ Kept spirals therefore come out in increasing lexicographic order, which is
 the order that defines isomer numbers (IPR isomers are numbered among IPR
 isomers).  A cage is found if some spiral starting at a pentagon closes; the
 smallest fullerenes known to have no spiral at all are far larger than the
-sizes chemists meet (C380, from memory).
+sizes chemists meet (C380, from memory).  One C100 cage has no closing spiral
+from a pentagon: the search finds 285,913 of the 285,914 C100 isomers (OEIS
+A007894), as it always did; the all-isomer counts agree for every smaller n.
 
-For larger cages the tree is cut at a fixed depth into a few hundred parts
-(each part: all spirals that begin with one partial spiral), searched by
-:data:`WORKERS` threads and handed over in order.
+For larger cages the tree is cut into subtrees of about equal estimated work
+(:func:`plan_subtrees`: the partial spirals each holds a dozen faces deeper,
+weighted by the pentagons they have still to place, the heavy ones cut deeper),
+searched by :data:`WORKERS` threads and handed over in order; the progress shown
+is the estimated work done.
 
-Partial spirals are also cut by two exact bounds: a face shortens the rim by
-at most two faces (a pentagon by one) and the last face needs a rim of its
-own size; and with isolated pentagons no two pentagons follow each other.
+Partial spirals are also cut by exact bounds: a face shortens the rim by at
+most two faces (a pentagon by one) and the last face needs a rim of its own
+size; a rim cannot enclose more faces than its rings allow
+(:func:`~cageprint.cage._prune.fill_bound`); with isolated pentagons no two
+pentagons follow each other.  In all-isomer searches, states from which no
+spiral closed are remembered exactly and cut when met again
+(:mod:`cageprint.cage._prune`).
 
 No shortcut from canonicity is taken before a spiral is complete: spirals
 from a given start fail to close often enough (about one pentagon start in
@@ -53,7 +61,7 @@ from . import _kernels as K
 from ._prune import new_memo
 from .spiral import check_n
 
-__all__ = ["iter_spirals", "count_isomers", "isomer_rank"]
+__all__ = ["iter_spirals", "iter_spirals_work", "plan_subtrees", "count_isomers", "isomer_rank"]
 
 #: spirals handed over per call of the compiled search (the first call hands fewer)
 BATCH = 4096
@@ -67,6 +75,16 @@ SPLIT_MIN_FACES_IPR = 46
 
 #: about how many parts a split search is cut into
 SPLIT_PARTS = 256
+
+#: faces beyond a subtree's prefix whose partial spirals estimate its work
+AHEAD = 12
+#: smaller cages (a few seconds of search) skip the estimate: their subtrees weigh alike
+PLAN_MIN_FACES = 40
+#: a heavy subtree is cut again this many faces deeper
+REFINE_STEP = 4
+#: each pentagon a partial spiral has still to place multiplies the work below it by about
+#: this much (fitted on the subtree times of all-isomer C70 and C80)
+WORK_PER_PENTAGON = 2.5
 
 
 _LOCAL = threading.local()
@@ -121,50 +139,137 @@ def _workers() -> int:
     return max(1, min(WORKERS, n))
 
 
+def _listing(n: int, ipr: bool, stop: int) -> np.ndarray:
+    # every partial spiral of `stop` faces that the search would go on from (pentagon rows)
+    st = K.new_search_state(n)
+    st["ctl"][6] = stop
+    found = list(_run(st, ipr, BATCH))
+    return np.concatenate(found) if found else np.zeros((0, 12), np.int64)
+
+
+def _groups(rows: np.ndarray, depth: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    # the distinct prefixes of `depth` faces among listing rows (in order): prefix, start, count
+    pre = np.where(rows <= depth, rows, 0)
+    if not len(pre):
+        return pre, np.zeros(0, np.int64), np.zeros(0, np.int64)
+    new = np.ones(len(pre), bool)
+    new[1:] = np.any(pre[1:] != pre[:-1], axis=1)
+    starts = np.flatnonzero(new)
+    return pre[starts], starts, np.diff(np.append(starts, len(pre)))
+
+
+def plan_subtrees(n: int, ipr: bool = False, parts: int = SPLIT_PARTS) -> list[tuple]:
+    """The spiral tree of C_n cut into subtrees of about equal estimated work, in order.
+
+    Returns ``(prefix, depth, weight)`` triples: every canonical spiral that
+    begins with ``prefix`` (pentagon positions within the first ``depth``
+    faces, padded with 0) belongs to that subtree, and the subtrees in list order
+    hand over the spirals in canonical order.  The work of a subtree is
+    estimated from the partial spirals it holds :data:`AHEAD` faces deeper, each
+    weighted by :data:`WORK_PER_PENTAGON` to the power of the pentagons it has
+    still to place; subtrees estimated at more than twice their share are cut
+    again, :data:`REFINE_STEP` faces deeper, while the lookahead allows.
+
+    Examples
+    --------
+    >>> plan = plan_subtrees(60, parts=16)
+    >>> sum(len(_part(60, False, p, d)) for p, d, _ in plan)
+    1812
+    """
+    n = check_n(n)
+    nf = n // 2 + 2
+    depth = 6
+    while True:  # deep enough for `parts` subtrees (listing them costs next to nothing)
+        rows = _listing(n, ipr, depth)
+        if len(rows) >= parts or depth >= nf - 6:
+            break
+        depth += 2
+    deep = min(depth + AHEAD, nf - 2) if nf >= PLAN_MIN_FACES else depth
+    rows = _listing(n, ipr, deep) if deep > depth else rows
+    # each partial spiral ahead weighs WORK_PER_PENTAGON ** (pentagons it has still to place)
+    weight = WORK_PER_PENTAGON ** (12 - np.count_nonzero(rows, axis=1)).astype(float)
+    plan: list[tuple] = []
+    target = max(float(weight.sum()) / parts, 1e-300)
+
+    def add(lo: int, hi: int, d: int) -> None:
+        for prefix, start, count in zip(*_groups(rows[lo:hi], d)):
+            a, b = lo + int(start), lo + int(start) + int(count)
+            w = float(weight[a:b].sum())
+            if w > 2 * target and d + REFINE_STEP <= deep - REFINE_STEP:
+                add(a, b, d + REFINE_STEP)
+            else:
+                plan.append((prefix, d, w))
+
+    add(0, len(rows), depth)
+    return plan
+
+
+def iter_spirals_work(n: int, ipr: bool = False) -> Iterator[tuple[np.ndarray, float]]:
+    """:func:`iter_spirals` with the share of the estimated work done after each batch.
+
+    The share (0 to 1) counts whole subtrees of :func:`plan_subtrees`, so it
+    moves with the search's work rather than with the isomers found.
+
+    Examples
+    --------
+    >>> [round(w, 2) for _, w in iter_spirals_work(40)][-1]
+    1.0
+    """
+    n = check_n(n)
+    nf = n // 2 + 2
+    if nf < (SPLIT_MIN_FACES_IPR if ipr else SPLIT_MIN_FACES):
+        yield from ((b, 0.0) for b in _run(K.new_search_state(n), ipr))
+        yield np.zeros((0, 12), np.int64), 1.0
+        return
+    workers = _workers()
+    if workers < 2 and nf < PLAN_MIN_FACES:
+        yield from ((b, 0.0) for b in _run(K.new_search_state(n), ipr))
+        yield np.zeros((0, 12), np.int64), 1.0
+        return
+    plan = plan_subtrees(n, ipr)
+    total = sum(w for _, _, w in plan) or 1.0
+    done = 0.0
+    if workers < 2:
+        for prefix, depth, w in plan:
+            found = _part(n, ipr, prefix, depth)
+            done += w
+            yield found, min(1.0, done / total)
+        return
+    pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="cageprint-search")
+    try:
+        pending: deque = deque()
+        todo = iter(plan)
+        for prefix, depth, w in itertools.islice(todo, 2 * workers):
+            pending.append((pool.submit(_part, n, ipr, prefix, depth), w))
+        while pending:
+            fut, w = pending.popleft()
+            found = fut.result()
+            nxt = next(todo, None)
+            if nxt is not None:
+                pending.append((pool.submit(_part, n, ipr, nxt[0], nxt[1]), nxt[2]))
+            done += w
+            yield found, min(1.0, done / total)
+    finally:  # also when the caller stops early
+        pool.shutdown(wait=True, cancel_futures=True)
+
+
 def iter_spirals(n: int, ipr: bool = False) -> Iterator[np.ndarray]:
     """Canonical spirals of C_n in lexicographic order, in batches.
 
     Yields (k, 12) int arrays of one-based pentagon positions.  This is the
     bare search behind :func:`~cageprint.cage.iter_isomers`, without building Cage objects.
-    For larger cages the search is split by the first faces of the spiral
-    into parts searched by :data:`WORKERS` threads at once; the parts are
-    handed over in order, so the output is the same.
+    For larger cages the search is split into subtrees of about equal estimated
+    work (:func:`plan_subtrees`) searched by :data:`WORKERS` threads at once;
+    they are handed over in order, so the output is the same.
 
     Examples
     --------
     >>> sum(len(b) for b in iter_spirals(40))
     40
     """
-    n = check_n(n)
-    nf = n // 2 + 2
-    workers = _workers()
-    if workers < 2 or nf < (SPLIT_MIN_FACES_IPR if ipr else SPLIT_MIN_FACES):
-        yield from _run(K.new_search_state(n), ipr)
-        return
-    # split deep enough for a few hundred parts (listing them costs next to nothing)
-    depth = 6
-    while True:
-        st = K.new_search_state(n)
-        st["ctl"][6] = depth
-        prefixes = np.concatenate(list(_run(st, ipr, BATCH)) or [np.zeros((0, 12), np.int64)])
-        if len(prefixes) >= SPLIT_PARTS or depth >= nf - 6:
-            break
-        depth += 2
-    pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="cageprint-search")
-    try:
-        pending: deque = deque()
-        todo = iter(prefixes)
-        for prefix in itertools.islice(todo, 2 * workers):
-            pending.append(pool.submit(_part, n, ipr, prefix, depth))
-        while pending:
-            found = pending.popleft().result()
-            nxt = next(todo, None)
-            if nxt is not None:
-                pending.append(pool.submit(_part, n, ipr, nxt, depth))
-            if len(found):
-                yield found
-    finally:  # also when the caller stops early
-        pool.shutdown(wait=True, cancel_futures=True)
+    for batch, _ in iter_spirals_work(n, ipr):
+        if len(batch):
+            yield batch
 
 
 def count_isomers(n: int, ipr: bool = False) -> int:

@@ -10,7 +10,7 @@ import sys
 from collections.abc import Iterator
 
 from ..errors import CageError
-from .isomers import isomer_rank, iter_spirals
+from .isomers import isomer_rank, iter_spirals_work
 from .model import Cage
 from .spiral import check_n
 
@@ -50,12 +50,14 @@ def iter_isomers(n: int, ipr: bool = False, progress: bool = False) -> Iterator[
         # lazy: tqdm.auto probes for ipywidgets; only a progress bar needs it
         from tqdm.auto import tqdm
 
-        bar = tqdm(
-            desc=f"C{n} {'IPR ' if ipr else ''}isomers", unit=" isomers", file=sys.stderr
-        )
+        # the bar follows the search's estimated work, not the isomers found so far
+        bar = tqdm(desc=f"C{n} {'IPR ' if ipr else ''}isomers", total=100, unit="%",
+                   bar_format="{desc}: {percentage:3.0f}%|{bar}| {postfix} [{elapsed}<{remaining}]",
+                   file=sys.stderr)
     rank = 0
+    shown = 0.0
     try:
-        for batch in iter_spirals(n, ipr):
+        for batch, done in iter_spirals_work(n, ipr):
             for row in batch.tolist():
                 rank += 1
                 if ipr:
@@ -63,7 +65,11 @@ def iter_isomers(n: int, ipr: bool = False, progress: bool = False) -> Iterator[
                 else:
                     yield Cage._trusted(n, row, isomer_all=rank)
             if bar is not None:
-                bar.update(len(batch))
+                step = round(100 * done - shown, 3)
+                if step > 0:
+                    bar.update(step)
+                    shown += step
+                bar.set_postfix_str(f"{rank:,} isomers", refresh=False)
     finally:
         if bar is not None:
             bar.close()

@@ -38,9 +38,12 @@ class Piece:
         Position in plan order (0-based).
     prefixes : tuple of tuple of int
         Each subtree's partial spiral: its pentagon positions (1-based) within
-        the first ``depth`` faces; ``((),)`` with ``depth == 0`` for a search
-        that is not split.
+        its first faces; ``((),)`` with ``depth == 0`` for a search that is not split.
     depth : int
+        Faces in each prefix (the first subtree's, when ``depths`` is given).
+    depths : tuple of int
+        Faces in each prefix when they differ (subtrees of heavy work are cut
+        deeper); empty when all are ``depth``.
     """
 
     n: int
@@ -48,28 +51,25 @@ class Piece:
     index: int
     prefixes: tuple[tuple[int, ...], ...]
     depth: int
+    depths: tuple[int, ...] = ()
+
+    def prefix_depths(self) -> tuple[int, ...]:
+        """The number of faces of each prefix."""
+        return self.depths or (self.depth,) * len(self.prefixes)
 
     @property
     def key(self) -> str:
-        """A stable text key: ``"d8:1,7|1,8"`` (depth, then each subtree's prefix)."""
-        return f"d{self.depth}:" + "|".join(",".join(map(str, p)) for p in self.prefixes)
-
-
-def _subtrees(n: int, ipr: bool, want: int) -> tuple[np.ndarray, int]:
-    nf = n // 2 + 2
-    depth = 6
-    while True:
-        st = _K.new_search_state(n)
-        st["ctl"][6] = depth
-        found = list(_iso._run(st, ipr, _iso.BATCH))
-        prefixes = np.concatenate(found) if found else np.zeros((0, 12), np.int64)
-        if len(prefixes) >= want or depth >= nf - 6:
-            return prefixes, depth
-        depth += 2
+        """A stable text key: ``"d8:1,7|1,8"`` (depth, then each subtree's prefix, with
+        ``@depth`` after a prefix cut deeper than the first)."""
+        return f"d{self.depth}:" + "|".join(
+            ",".join(map(str, p)) + ("" if d == self.depth else f"@{d}")
+            for p, d in zip(self.prefixes, self.prefix_depths()))
 
 
 def plan_pieces(n: int, ipr: bool = False, parts: int = PIECE_PARTS) -> list[Piece]:
-    """Cut the spiral search of C_n into about ``parts`` pieces, in canonical order.
+    """Cut the spiral search of C_n into about ``parts`` pieces of about equal estimated
+    work, in canonical order: the subtrees of :func:`cageprint.cage.isomers.plan_subtrees`
+    (those the local search uses), grouped by their estimated work.
 
     Small searches come back as one piece (``depth == 0``).
 
@@ -85,12 +85,22 @@ def plan_pieces(n: int, ipr: bool = False, parts: int = PIECE_PARTS) -> list[Pie
     nf = n // 2 + 2
     if nf < (_iso.SPLIT_MIN_FACES_IPR if ipr else _iso.SPLIT_MIN_FACES) or parts <= 1:
         return [Piece(n, bool(ipr), 0, ((),), 0)]
-    prefixes, depth = _subtrees(n, ipr, SUBTREES_PER_PIECE * int(parts))
-    rows = [tuple(int(v) for v in row if v > 0) for row in prefixes.tolist()]
-    groups = [g for g in np.array_split(np.arange(len(rows)), min(int(parts), len(rows)))
-              if len(g)]
-    return [Piece(n, bool(ipr), k, tuple(rows[i] for i in g), depth)
-            for k, g in enumerate(groups)]
+    plan = _iso.plan_subtrees(n, ipr, SUBTREES_PER_PIECE * int(parts))
+    k = min(int(parts), len(plan))
+    share = np.cumsum([w for _, _, w in plan]) / sum(w for _, _, w in plan)
+    # a piece ends where the running work passes its share; every piece keeps a subtree
+    bounds = [0]
+    for i in range(1, k):
+        end = int(np.searchsorted(share, i / k)) + 1
+        bounds.append(min(max(end, bounds[-1] + 1), len(plan) - (k - i)))
+    bounds.append(len(plan))
+    pieces = []
+    for i in range(k):
+        sub = plan[bounds[i]:bounds[i + 1]]
+        rows = tuple(tuple(int(v) for v in pre if v > 0) for pre, _, _ in sub)
+        ds = tuple(int(d) for _, d, _ in sub)
+        pieces.append(Piece(n, bool(ipr), i, rows, ds[0], () if len(set(ds)) == 1 else ds))
+    return pieces
 
 
 def piece_spirals(piece: Piece) -> np.ndarray:
@@ -99,10 +109,10 @@ def piece_spirals(piece: Piece) -> np.ndarray:
         found = list(_iso._run(_K.new_search_state(piece.n), piece.ipr))
         return np.concatenate(found) if found else np.zeros((0, 12), np.int64)
     out = []
-    for pre in piece.prefixes:
+    for pre, depth in zip(piece.prefixes, piece.prefix_depths()):
         prefix = np.zeros(12, np.int64)
         prefix[: len(pre)] = pre
-        out.append(_iso._part(piece.n, piece.ipr, prefix, piece.depth))
+        out.append(_iso._part(piece.n, piece.ipr, prefix, depth))
     return np.concatenate(out) if out else np.zeros((0, 12), np.int64)
 
 
