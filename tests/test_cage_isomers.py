@@ -111,6 +111,7 @@ OEIS_IPR_102_150 = {
 
 
 @pytest.mark.slow
+@pytest.mark.long
 @pytest.mark.parametrize("n", [
     pytest.param(n, marks=pytest.mark.xfail(
         strict=True, reason="one C100 cage has no closing spiral from a pentagon; the "
@@ -122,6 +123,7 @@ def test_all_isomer_counts_equal_oeis_a007894(n):
 
 
 @pytest.mark.slow
+@pytest.mark.long
 @pytest.mark.parametrize("n", sorted(OEIS_IPR_102_150))
 def test_ipr_counts_equal_oeis_a046880(n):
     # OEIS A046880, from memory (values above); up to an hour each near C150
