@@ -27,7 +27,7 @@ try:  # numba is a core dependency; the fallback keeps a source checkout usable
     from numba import njit
 except ImportError:  # pragma: no cover - exercised only without numba
 
-    def njit(*args, **kwargs):
+    def njit(*args, **kwargs):  # type: ignore[no-redef]
         if args and callable(args[0]):
             return args[0]
         return lambda f: f

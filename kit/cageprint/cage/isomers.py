@@ -87,7 +87,8 @@ REFINE_STEP = 4
 WORK_PER_PENTAGON = 2.5
 
 
-_LOCAL = threading.local()
+_TABLES: dict[bool, np.ndarray] = {}
+_TABLES_LOCK = threading.Lock()
 _OFF = np.zeros(1, np.int64)
 
 #: remember dead states in all-isomer searches (in IPR searches they rarely recur)
@@ -96,15 +97,21 @@ MEMO_IPR = False
 
 
 def _memo(ipr: bool) -> np.ndarray:
-    # one dead-state table per thread, kept between searches (keys hold no cage size)
+    # one dead-state table per search kind, kept between searches (keys hold no cage size)
+    # and shared by the search threads: entries are whole aligned 64-bit words, so a
+    # thread reads either a key another wrote or the one before it; a clash only forgets
     if not (MEMO_IPR if ipr else MEMO_ALL):
         return _OFF
-    name = "ipr" if ipr else "all"
-    table = getattr(_LOCAL, name, None)
-    if table is None:
-        table = new_memo()
-        setattr(_LOCAL, name, table)
-    return table
+    with _TABLES_LOCK:
+        if ipr not in _TABLES:
+            _TABLES[ipr] = new_memo()
+        return _TABLES[ipr]
+
+
+def forget_dead_states() -> None:
+    """Empty the dead-state tables (benchmarks time cold searches with it)."""
+    with _TABLES_LOCK:
+        _TABLES.clear()
 
 
 def _run(st, ipr: bool, first: int = 64) -> Iterator[np.ndarray]:
