@@ -52,10 +52,9 @@ def iter_isomers(n: int, ipr: bool = False, progress: bool = False) -> Iterator[
 
         # the bar follows the search's estimated work, not the isomers found so far
         bar = tqdm(desc=f"C{n} {'IPR ' if ipr else ''}isomers", total=100, unit="%",
-                   bar_format="{desc}: {percentage:3.0f}%|{bar}| {postfix} [{elapsed}<{remaining}]",
-                   file=sys.stderr)
+                   bar_format="{desc} | {percentage:3.0f}% of the work |{bar}| "
+                   "{elapsed} elapsed, ~{remaining} left", file=sys.stderr)
     rank = 0
-    shown = 0.0
     try:
         for batch, done in iter_spirals_work(n, ipr):
             for row in batch.tolist():
@@ -65,11 +64,9 @@ def iter_isomers(n: int, ipr: bool = False, progress: bool = False) -> Iterator[
                 else:
                     yield Cage._trusted(n, row, isomer_all=rank)
             if bar is not None:
-                step = round(100 * done - shown, 3)
-                if step > 0:
-                    bar.update(step)
-                    shown += step
-                bar.set_postfix_str(f"{rank:,} isomers", refresh=False)
+                bar.set_description_str(
+                    f"C{n} {'IPR ' if ipr else ''}isomers: {rank:,} found", refresh=False)
+                bar.update(max(0.0, min(100.0, round(100 * done, 1)) - bar.n))
     finally:
         if bar is not None:
             bar.close()
