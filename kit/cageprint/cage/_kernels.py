@@ -304,21 +304,27 @@ def smallest_spiral(nxt, size, deg, nbr, pentagon_starts_only):
 
 @njit(cache=True, inline="always")
 def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
-    # the spiral being tested is faces 0, 1, 2, ... in sense 0: its sizes are ``size``
+    # the spiral being tested is faces 0, 1, 2, ... in sense 0: its sizes are ``size``;
+    # starts towards a pentagon go first (when face 1 is a hexagon they read smaller at
+    # once, so a non-canonical spiral is usually caught by the first closing one)
     nf = size.shape[0]
-    for f0 in range(nf):
-        if size[f0] != 5:
-            continue
-        for j in range(deg[f0]):
-            f1 = nbr[f0, j]
-            for sense in range(2):
-                if f0 == 0 and f1 == 1 and sense == 0:
+    for second in (5, 6):
+        if second > size[1]:  # larger at once (checked here: calls cost)
+            break
+        for f0 in range(nf):
+            if size[f0] != 5:
+                continue
+            for j in range(deg[f0]):
+                f1 = nbr[f0, j]
+                if size[f1] != second:
                     continue
-                if size[f1] > size[1]:  # larger at once (checked here: calls cost)
-                    continue
-                r = unwind(f0, f1, sense, nxt, size, deg, nbr, size, True, out, placed, cnt, bnd)
-                if r == 2:
-                    return False
+                for sense in range(2):
+                    if f0 == 0 and f1 == 1 and sense == 0:
+                        continue
+                    r = unwind(f0, f1, sense, nxt, size, deg, nbr, size, True, out, placed,
+                               cnt, bnd)
+                    if r == 2:
+                        return False
     return True
 
 
