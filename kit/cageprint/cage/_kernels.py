@@ -22,16 +22,8 @@ from __future__ import annotations
 
 import numpy as np
 
-try:  # numba is a core dependency; the fallback keeps a source checkout usable
-    from numba import njit
-except ImportError:  # pragma: no cover - exercised only without numba
-
-    def njit(*args, **kwargs):
-        if args and callable(args[0]):
-            return args[0]
-        return lambda f: f
-
-from ._prune import fill_bound, memo_has, memo_key, memo_put  # noqa: E402
+# njit, or a stand-in without numba (defined once, in _prune)
+from ._prune import fill_bound, memo_has, memo_key, memo_put, njit
 
 # status codes of _place (spiral.py turns them into words)
 OK = 0

@@ -38,7 +38,7 @@ MEMO_LEFT = 18
 MEMO_MIN = 2
 #: and with a rim of at most this many faces (so the key fits one 64-bit integer)
 MEMO_RIM = 24
-#: table entries per search thread (8 bytes each)
+#: table entries (8 bytes each); one table serves every search thread
 MEMO_SIZE = 1 << 21
 #: how many neighbouring slots a key may take
 _PROBES = 4
@@ -127,5 +127,5 @@ def memo_put(table, key):
 
 
 def new_memo() -> np.ndarray:
-    """An empty dead-state table (one per search thread; any cage size may share it)."""
+    """An empty dead-state table (the search threads and every cage size may share it)."""
     return np.zeros(MEMO_SIZE, np.int64)

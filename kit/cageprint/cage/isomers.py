@@ -224,12 +224,10 @@ def iter_spirals_work(n: int, ipr: bool = False) -> Iterator[tuple[np.ndarray, f
     """
     n = check_n(n)
     nf = n // 2 + 2
-    if nf < (SPLIT_MIN_FACES_IPR if ipr else SPLIT_MIN_FACES):
-        yield from ((b, 0.0) for b in _run(K.new_search_state(n), ipr))
-        yield np.zeros((0, 12), np.int64), 1.0
-        return
     workers = _workers()
-    if workers < 2 and nf < PLAN_MIN_FACES:
+    if nf < (SPLIT_MIN_FACES_IPR if ipr else SPLIT_MIN_FACES) or (
+        workers < 2 and nf < PLAN_MIN_FACES
+    ):  # one piece: the work is known done only at the end
         yield from ((b, 0.0) for b in _run(K.new_search_state(n), ipr))
         yield np.zeros((0, 12), np.int64), 1.0
         return
