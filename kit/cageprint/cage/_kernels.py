@@ -304,7 +304,7 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
         if second > size[1]:  # larger at once (checked here: calls cost)
             break
         for f0 in range(nf):
-            if size[f0] != 5:
+            if size[f0] != size[0]:
                 continue
             for j in range(deg[f0]):
                 f1 = nbr[f0, j]
@@ -317,11 +317,21 @@ def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
                                cnt, bnd)
                     if r == 2:
                         return False
+    if size[0] == 6:  # the smallest from a hexagon: kept if no spiral from a pentagon closes
+        for f0 in range(nf):
+            if size[f0] != 5:
+                continue
+            for j in range(deg[f0]):
+                for sense in range(2):
+                    if unwind(f0, nbr[f0, j], sense, nxt, size, deg, nbr, size, False, out,
+                              placed, cnt, bnd) == 2:
+                        return False
     return True
 
 
-def new_search_state(n):
-    """Arrays holding a resumable depth-first search over spirals of C``n``."""
+def new_search_state(n, first=5):
+    """Arrays holding a resumable depth-first search over spirals of C``n`` whose
+    face 0 has ``first`` sides (6: the cages no spiral from a pentagon closes on)."""
     nf = n // 2 + 2
     st = {
         "size": np.zeros(nf, np.int64),
@@ -337,8 +347,9 @@ def new_search_state(n):
         "wmark": np.zeros(nf + 1, np.int64),
         "tried": np.zeros(nf + 1, np.int64),
         # [k, pentagons placed, started, nodes visited, complete windups,
-        #  first face searched (faces before it are a given prefix), depth of a leaf]
-        "ctl": np.array([0, 0, 0, 0, 0, 1, nf], np.int64),
+        #  first face searched (faces before it are a given prefix), depth of a leaf,
+        #  sides of face 0]
+        "ctl": np.array([0, 0, 0, 0, 0, 1, nf, first], np.int64),
     }
     return st
 
@@ -348,7 +359,9 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
            mkey, wmark, table):
     """Resumable depth-first search for canonical spirals in lexicographic order.
 
-    Face 0 is always a pentagon (a canonical spiral starts at one).  At each
+    Face 0 is a pentagon (``ctl[7] = 5``: a canonical spiral starts at one
+    when any spiral from a pentagon closes), or a hexagon (``ctl[7] = 6``: then
+    only cages on which no spiral from a pentagon closes are kept).  At each
     face the pentagon is tried before the hexagon, so canonical spirals come
     out in increasing lexicographic order of their pentagon positions.  Up to
     ``max_out`` spirals (rows of 12 one-based positions) are written to
@@ -372,7 +385,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     memo = kstop >= nf and table.shape[0] > 1  # dead states are known only in a full search
     if ctl[2] == 0:
         ctl[2] = 1
-        size[0] = 5
+        if kmin <= 1:
+            size[0] = ctl[7]
         npent = 0
         for j in range(kmin):  # face 0, or a prefix known to wind up
             place(j, nf, size, deg, nbr, bnd, ptr, tri, ipr)
@@ -455,7 +469,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             nbr[0, 0] = 1
             deg[1] = 1
             nbr[1, 0] = 0
-            if ipr and s == 5:
+            if ipr and s == 5 and size[0] == 5:
                 ok = False
         else:
             for e in range(2):  # k touches the newest rim face, then the oldest

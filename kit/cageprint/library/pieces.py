@@ -15,7 +15,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..cage import Cage, check_n
-from ..cage import _kernels as _K
 from ..cage import isomers as _iso
 
 __all__ = ["PIECE_PARTS", "Piece", "plan_pieces", "piece_spirals", "cage_of"]
@@ -63,7 +62,7 @@ class Piece:
         ``@depth`` after a prefix cut deeper than the first)."""
         return f"d{self.depth}:" + "|".join(
             ",".join(map(str, p)) + ("" if d == self.depth else f"@{d}")
-            for p, d in zip(self.prefixes, self.prefix_depths()))
+            for p, d in zip(self.prefixes, self.prefix_depths(), strict=True))
 
 
 def plan_pieces(n: int, ipr: bool = False, parts: int = PIECE_PARTS) -> list[Piece]:
@@ -106,10 +105,10 @@ def plan_pieces(n: int, ipr: bool = False, parts: int = PIECE_PARTS) -> list[Pie
 def piece_spirals(piece: Piece) -> np.ndarray:
     """Canonical spirals (k, 12) of one piece, in canonical order."""
     if piece.depth == 0:
-        found = list(_iso._run(_K.new_search_state(piece.n), piece.ipr))
+        found = list(_iso._unsplit(piece.n, piece.ipr, None))
         return np.concatenate(found) if found else np.zeros((0, 12), np.int64)
     out = []
-    for pre, depth in zip(piece.prefixes, piece.prefix_depths()):
+    for pre, depth in zip(piece.prefixes, piece.prefix_depths(), strict=True):
         prefix = np.zeros(12, np.int64)
         prefix[: len(pre)] = pre
         out.append(_iso._part(piece.n, piece.ipr, prefix, depth))
