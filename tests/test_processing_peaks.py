@@ -399,3 +399,15 @@ def test_baseline_is_remembered_per_spectrum_and_settings():
     assert abs(other[2000] - again[2000] - 0.3) < 0.02
     _, coarse = filters.estimate_baseline(s, lam=1e2)  # other settings: another entry
     assert coarse["params"]["lam"] == 1e2 and diag["params"]["lam"] != 1e2
+
+
+def test_quadratic_fit_equals_numpy_polyfit():
+    # the apex refinement's least-squares parabola against numpy.polyfit (a general-purpose
+    # reference; common practice, no source)
+    from cageprint.spectra.peaks import _quadratic
+
+    rng = np.random.default_rng(5)
+    for n in (3, 4, 7, 15):
+        t = np.sort(rng.uniform(-1, 1, n))
+        y = rng.normal(size=n)
+        np.testing.assert_allclose(_quadratic(t, y), np.polyfit(t, y, 2), rtol=1e-8, atol=1e-10)
