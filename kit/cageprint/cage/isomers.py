@@ -258,19 +258,20 @@ def plan_subtrees(n: int, ipr: bool = False, parts: int = SPLIT_PARTS,
     target = max(sum(float(t[3].sum()) for t in trees) / parts, 1e-300)
     plan: list[tuple] = []
     for rows, depth, deep, weight in trees:
-        _cut(plan, rows, weight, target, deep, 0, len(rows), depth)
+        _cut(plan, (rows, weight, target, deep), 0, len(rows), depth)
     if extra and extra != "search":
         plan += _known_subtrees(n, extra)
     return plan
 
 
-def _cut(plan: list, rows, weight, target: float, deep: int, lo: int, hi: int, d: int) -> None:
+def _cut(plan: list, tree: tuple, lo: int, hi: int, d: int) -> None:
     # the subtrees of rows[lo:hi] at depth d onto `plan`, heavy ones cut deeper
+    rows, weight, target, deep = tree
     for prefix, start, count in zip(*_groups(rows[lo:hi], d), strict=True):
         a, b = lo + int(start), lo + int(start) + int(count)
         w = float(weight[a:b].sum())
         if w > 2 * target and d + REFINE_STEP <= deep - REFINE_STEP:
-            _cut(plan, rows, weight, target, deep, a, b, d + REFINE_STEP)
+            _cut(plan, tree, a, b, d + REFINE_STEP)
         else:
             plan.append((prefix, d, w))
 

@@ -185,7 +185,7 @@ def _fit_centre(x, y, i, k, how):
     if how == "parabola":
         # the height from a parabola over half the window (a wide parabola sits below a
         # Lorentzian apex), around the sample nearest the centre and evaluated at the centre
-        i2 = int(np.clip(np.searchsorted(x, centre), 1, x.size - 1))
+        i2 = min(max(int(np.searchsorted(x, centre)), 1), x.size - 1)
         i2 = i2 - 1 if abs(x[i2 - 1] - centre) < abs(x[i2] - centre) else i2
         lo2, hi2 = max(0, i2 - kh), min(x.size, i2 + kh + 1)
         if hi2 - lo2 >= 3:
