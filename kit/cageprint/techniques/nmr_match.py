@@ -74,7 +74,7 @@ def _assign(sizes, logs, ln_scale, costs, tols=None):
     merge = c_merge * (n_orb - 1)
     n_states = left.shape[1]
     have = bool(logs) and logs[0] is not None
-    miss = missing_costs(values, ln_scale if have else None, costs)
+    ends = end_costs(values, tuple(counts), ln_scale if have else None, costs)
     n_opt = len(options)
     top = float(values[0])
     n_lines = len(logs)
@@ -93,7 +93,9 @@ def _assign(sizes, logs, ln_scale, costs, tols=None):
     line_costs = np.ascontiguousarray(line_costs, dtype=np.float64)
     imps_arr = np.asarray(imps, dtype=np.float64)
     history = _dp_forward(line_costs, imps_arr, gather)
-    total = history[n_lines, :n_states] + miss @ left
+    left_i = left.astype(np.intp)
+    total = history[n_lines, :n_states] + sum(
+        table[row] for table, row in zip(ends, left_i, strict=True))
     state = int(np.argmin(total))
     cost = float(total[state])
     chosen = _dp_back(history, line_costs, imps_arr, gather, offsets, state)
@@ -181,6 +183,37 @@ def missing_costs(values, ln_scale, costs) -> np.ndarray:
     p_lost = LOST_ANYWAY + (1.0 - LOST_ANYWAY) * (1.0 - detection_probability(
         expected, costs[7], costs[0]))
     return np.minimum(-np.log(p_lost), float(c_miss))
+
+
+def end_costs(values, counts, ln_scale, costs) -> list[np.ndarray]:
+    """Cost of each number of unseen orbits, per orbit size: ``table[i][k]`` for ``k``
+    of the ``counts[i]`` orbits of ``values[i]`` carbons not seen.
+
+    Orbits of one size are alike, so any ``k`` of the ``m`` may be the lost ones: with
+    the chance ``p`` that one is lost (:func:`missing_costs`), the count is binomial and
+    the cost is ``-ln[C(m, k) p^k (1 - p)^(m - k)]`` (common practice, no source).  With
+    detection modelled (profiles: S/N per unit area known) the seen orbits pay for being
+    seen.  Peak lists keep a perfect fit at zero: ``k`` flat costs less ``ln C(m, k)``.
+
+    Examples
+    --------
+    >>> t = end_costs([2], (10,), None, (0.3, 3, 2.0, 4.0, 0.0, 3.0))
+    >>> round(float(t[0][0]), 3), round(float(t[0][1]), 3)   # 3 - ln 10
+    (0.0, 0.697)
+    """
+    miss = missing_costs(values, ln_scale, costs)
+    detect = len(costs) > 6 and bool(costs[6]) and ln_scale is not None
+    out = []
+    for c, m in zip(miss, counts, strict=True):
+        k = np.arange(m + 1, dtype=float)
+        ln_choose = (math.lgamma(m + 1) - np.array([math.lgamma(x + 1) for x in k])
+                     - np.array([math.lgamma(m - x + 1) for x in k]))
+        table = k * float(c) - ln_choose
+        if detect:
+            p = math.exp(-float(c))
+            table = table - (m - k) * math.log1p(-min(p, 1.0 - 1e-12))
+        out.append(table)
+    return out
 
 
 def _fit(sizes, logs, costs, tols=None):
