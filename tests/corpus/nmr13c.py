@@ -8,9 +8,14 @@ software, and goes through the kit's public path: reader -> observe -> compare -
 What differs from the matcher's own assumptions (``cageprint.techniques.nmr``):
 
 - line shapes: Lorentzian, Gaussian or pseudo-Voigt, 0.5-3 Hz wide at 75-150 MHz;
-- intensity spread: orbit size x a log-normal factor (sigma 0.12-0.35) x a relaxation factor
-  that is shared by the carbons of one kind (pentagon-junction carbons of a non-IPR cage relax
-  differently), so areas are not Gaussian around the orbit size;
+- intensity spread, one of two models (``INTENSITY_MODELS``, chosen per call of ``make_case``):
+  ``"lognormal"`` (the default): orbit size x a log-normal factor (sigma 0.12-0.35) x a
+  relaxation factor shared by the carbons of one kind (pentagon-junction carbons of a non-IPR
+  cage relax differently), so areas are not Gaussian around the orbit size;
+  ``"saturation"``: partial saturation, orbit size x (1 - exp(-TR/T1)) x a small noise factor,
+  with a log-normal spread of T1 over the orbits, pentagon-junction carbons relaxing faster or
+  slower as a kind, and a repetition time TR of 0.2-3 median T1 per spectrum -- areas skewed
+  and bounded by the orbit size, unlike the matcher's Gaussian spread in log area;
 - accidental coincidences: orbit shifts drawn from a smooth density with a chance of falling
   within 0.002-0.01 ppm of another orbit (unresolved), more likely as lines crowd;
 - lock/solvent lines: the deuterium multiplets of C6D6, toluene-d8 or 1,2-dichlorobenzene-d4
@@ -23,11 +28,13 @@ Sources: solvent 13C shifts and J(C,D) from Fulmer et al., Organometallics 2010,
 (C6D6 128.06 t, J 24.3 Hz; toluene-d8 137.48 s, 128.87 t, 127.96 t, 125.13 t, J ~24 Hz);
 1,2-dichlorobenzene-d4 (132.4 s, 130.1 t, 127.2 t) from memory; CS2 192.8 ppm (Gottlieb et al.,
 J. Org. Chem. 1997, 62, 7512) lies outside the cage window.  Line shapes, relaxation spread and
-noise: common practice, no source.  The fractions themselves are invented.
+noise: common practice, no source.  Partial saturation 1 - exp(-TR/T1): common practice, no
+source; its T1 spreads and TR range are invented.  The fractions themselves are invented.
 """
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -41,6 +48,74 @@ LOCKS: dict[str, list[tuple[float, int, float]]] = {
 
 #: the window the corpus writes (ppm)
 WINDOW = (118.0, 168.0)
+
+
+#: per-orbit area factors of one cage: (orbit sizes, orbit shifts ppm, IPR?) -> one factor per
+#: orbit; the area of an orbit is share x size x factor
+OrbitFactors = Callable[[tuple[int, ...], np.ndarray, bool], list[float]]
+
+
+def _junction(ppm: float, ipr: bool) -> bool:
+    """A pentagon-junction carbon: a line above 150 ppm of a non-IPR cage (see orbit_shifts)."""
+    return ppm > 150.0 and not ipr
+
+
+def _lognormal(rng: np.random.Generator) -> tuple[OrbitFactors, dict]:
+    """Log-normal factor per orbit (sigma 0.12-0.35 per spectrum) x a junction factor 0.6-1.0
+    per cage.  Draws from ``rng`` in the order the corpus always did (same seed, same bytes)."""
+    spread = rng.uniform(0.12, 0.35)
+
+    def factors(sizes: tuple[int, ...], shifts: np.ndarray, ipr: bool) -> list[float]:
+        junction_factor = rng.uniform(0.6, 1.0)
+        out = []
+        for ppm in shifts:
+            f = np.exp(rng.normal(0, spread))
+            if _junction(float(ppm), ipr):
+                f *= junction_factor
+            out.append(f)
+        return out
+
+    return factors, {"spread": spread}
+
+
+#: saturation model: range of TR / median T1 per spectrum (log-uniform; invented)
+TR_RATIO = (0.2, 3.0)
+#: saturation model: sigma of log T1 over the orbits of a spectrum (invented)
+T1_SPREAD = (0.15, 0.5)
+#: saturation model: T1 of pentagon-junction carbons / median T1, per cage (invented; either way)
+JUNCTION_T1 = (0.4, 2.5)
+#: saturation model: sigma of a small log-normal integration noise per orbit (invented)
+SATURATION_NOISE = 0.03
+
+
+def _saturation(rng: np.random.Generator) -> tuple[OrbitFactors, dict]:
+    """Partial saturation: factor 1 - exp(-TR/T1) per orbit (x a small noise factor), T1
+    log-normal around the spectrum's median (pentagon-junction carbons of a cage shifted as a
+    kind), TR/T1_median 0.2-3 per spectrum.  Source: partial saturation 1 - exp(-TR/T1),
+    common practice, no source; the ranges are invented."""
+    tr_ratio = float(np.exp(rng.uniform(np.log(TR_RATIO[0]), np.log(TR_RATIO[1]))))
+    t1_spread = float(rng.uniform(*T1_SPREAD))
+
+    def factors(sizes: tuple[int, ...], shifts: np.ndarray, ipr: bool) -> list[float]:
+        junction_t1 = float(np.exp(rng.uniform(np.log(JUNCTION_T1[0]), np.log(JUNCTION_T1[1]))))
+        out = []
+        for ppm in shifts:
+            t1 = float(np.exp(rng.normal(0, t1_spread)))   # in units of the median T1
+            if _junction(float(ppm), ipr):
+                t1 *= junction_t1
+            noise = float(np.exp(rng.normal(0, SATURATION_NOISE)))
+            out.append((1.0 - np.exp(-tr_ratio / t1)) * noise)
+        return out
+
+    return factors, {"tr_ratio": tr_ratio, "t1_spread": t1_spread}
+
+
+#: intensity models by name: each takes the case's generator, draws its per-spectrum
+#: parameters and returns (per-cage factor function, notes for ``Truth.notes``)
+INTENSITY_MODELS: dict[str, Callable[[np.random.Generator], tuple[OrbitFactors, dict]]] = {
+    "lognormal": _lognormal,
+    "saturation": _saturation,
+}
 
 
 @dataclass(frozen=True)
@@ -123,11 +198,15 @@ def to_text(x: np.ndarray, y: np.ndarray, *, solvent: str, mhz: float, title: st
 
 
 def make_case(rng: np.random.Generator, formula: str, ipr: bool, pool: list,
-              *, mixture: bool) -> tuple[bytes, Truth]:
+              *, mixture: bool, intensity: str = "lognormal") -> tuple[bytes, Truth]:
     """One spectrum of ``formula``: a random true isomer from ``pool`` (candidates), or two.
 
-    ``pool`` is a list of candidates with ``isomer``, ``nmr_sizes`` and ``pattern``.
+    ``pool`` is a list of candidates with ``isomer``, ``nmr_sizes`` and ``pattern``;
+    ``intensity`` names the area model in ``INTENSITY_MODELS``.
     """
+    if intensity not in INTENSITY_MODELS:
+        raise ValueError(f"unknown intensity model {intensity!r}; "
+                         f"known: {', '.join(INTENSITY_MODELS)}")
     mhz = float(rng.choice([75.47, 100.6, 125.7, 150.9]))
     snr = float(np.exp(rng.uniform(np.log(5), np.log(50))))
     picks = [pool[int(rng.integers(len(pool)))]]
@@ -137,17 +216,13 @@ def make_case(rng: np.random.Generator, formula: str, ipr: bool, pool: list,
         picks.append(others[int(rng.integers(len(others)))])
         minor = float(rng.uniform(0.15, 0.5))
         shares = [1 - minor, minor]
-    spread = rng.uniform(0.12, 0.35)
+    factors, model_notes = INTENSITY_MODELS[intensity](rng)
     lines: list[tuple[float, float]] = []
     heights_ref = []
     for cand, share in zip(picks, shares, strict=True):
         sizes = tuple(cand.nmr_sizes)
         shifts = orbit_shifts(sizes, rng, nonipr=not ipr, crowd_p=0.08)
-        junction_factor = rng.uniform(0.6, 1.0)
-        for s, ppm in zip(sizes, shifts, strict=True):
-            f = np.exp(rng.normal(0, spread))
-            if ppm > 150.0 and not ipr:
-                f *= junction_factor
+        for s, ppm, f in zip(sizes, shifts, factors(sizes, shifts, ipr), strict=True):
             lines.append((float(ppm), share * s * f))
             heights_ref.append(share * s * f)
     med_area = float(np.median(heights_ref))
@@ -170,5 +245,6 @@ def make_case(rng: np.random.Generator, formula: str, ipr: bool, pool: list,
     truth = Truth(formula=formula, ipr=ipr, isomers=tuple(c.isomer for c in picks),
                   shares=tuple(shares), patterns=tuple(c.pattern for c in picks),
                   solvent_declared=declared, lock=lock, snr=snr, mhz=mhz,
-                  notes={"undeclared_lock": undeclared, "spread": spread})
+                  notes={"undeclared_lock": undeclared, "intensity": intensity,
+                         **model_notes})
     return to_text(x, y, solvent=declared, mhz=mhz, title=f"corpus {formula}"), truth

@@ -1,11 +1,15 @@
 """Run corpus cases through the kit's public path and score the outcome against the truth.
 
 Used by ``tests/benchmarks/bench_accuracy.py`` (the whole corpus, printed as a table) and
-``tests/test_accuracy_slice.py`` (a small seeded slice).
+``tests/test_accuracy_slice.py`` (a small seeded slice).  The corpus intensity model
+(``nmr13c.INTENSITY_MODELS``) is chosen by the environment variable
+``CAGEPRINT_CORPUS_INTENSITY`` (default ``lognormal``) or per call.
 """
 
 from __future__ import annotations
 
+import math
+import os
 import time
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -22,6 +26,11 @@ IPR_FORMULAS = ("C60", "C70", "C76", "C78", "C80", "C82", "C84", "C86", "C88", "
                 "C92", "C94", "C96", "C98", "C100")
 #: non-IPR endohedral formulas (all isomers are candidates)
 NONIPR_FORMULAS = ("Sc2@C66", "Sc3N@C68")
+#: environment variable naming the corpus intensity model
+INTENSITY_ENV = "CAGEPRINT_CORPUS_INTENSITY"
+#: band edges of the kit's first-group share for ``reliability`` (bands < 50 %, 50-90 %,
+#: 90-99 %, >= 99 %; chosen for reading, no source)
+SHARE_BANDS = (0.5, 0.9, 0.99)
 
 
 @dataclass(frozen=True)
@@ -36,6 +45,7 @@ class Outcome:
     ruled_out: bool           # a true isomer (major or minor) was ruled out
     partner_named: bool       # mixtures: the minor isomer's pattern is named as partner
     seconds: float
+    first_share: float = 0.0  # the kit's posterior share of its first-rank group (0 if none)
 
 
 _POOLS: dict[tuple[str, bool], list] = {}
@@ -57,6 +67,16 @@ def true_pool(formula: str, ipr: bool) -> list:
         return cands
     low = {"C1", "Ci", "Cs", "C2"}
     return [c for c in cands if c.point_group not in low]
+
+
+def intensity_model(name: str | None = None) -> str:
+    """The corpus intensity model: ``name``, else ``$CAGEPRINT_CORPUS_INTENSITY``, else
+    ``"lognormal"``; an unknown name raises ``ValueError``."""
+    model = name or os.environ.get(INTENSITY_ENV, "").strip() or "lognormal"
+    if model not in nmr13c.INTENSITY_MODELS:
+        raise ValueError(f"{INTENSITY_ENV}={model!r} is not one of "
+                         f"{', '.join(nmr13c.INTENSITY_MODELS)}")
+    return model
 
 
 def case_spec(seed: int) -> tuple[str, bool, bool]:
@@ -81,10 +101,14 @@ def _partner_named(row, truth: nmr13c.Truth) -> bool:
     return partner is not None and getattr(partner, "isomer", partner) == truth.isomers[1]
 
 
-def run_case(seed: int, settings: dict | None = None) -> Outcome:
+def run_case(seed: int, settings: dict | None = None, *,
+             intensity: str | None = None) -> Outcome:
+    """Make case ``seed`` (intensity model as ``intensity_model(intensity)``), rank it through
+    a session and score it against its truth."""
     formula, ipr, mixture = case_spec(seed)
     rng = np.random.default_rng([seed, 2])
-    text, truth = nmr13c.make_case(rng, formula, ipr, true_pool(formula, ipr), mixture=mixture)
+    text, truth = nmr13c.make_case(rng, formula, ipr, true_pool(formula, ipr), mixture=mixture,
+                                   intensity=intensity_model(intensity))
     t0 = time.perf_counter()
     s = Session(formula)
     s.set_candidates(pool(formula, ipr))
@@ -101,12 +125,14 @@ def run_case(seed: int, settings: dict | None = None) -> Outcome:
     return Outcome(
         seed=seed, truth=truth, in_first=truth.isomers[0] in members, first_size=len(first),
         first_same_pattern=len({r.candidate.pattern for r in first}) <= 1,
-        ruled_out=out, partner_named=_partner_named(major_row, truth), seconds=dt)
+        ruled_out=out, partner_named=_partner_named(major_row, truth), seconds=dt,
+        first_share=float(sum(r.share for r in first)))
 
 
-def run(seeds: range, settings: dict | None = None) -> Iterator[Outcome]:
+def run(seeds: range, settings: dict | None = None, *,
+        intensity: str | None = None) -> Iterator[Outcome]:
     for seed in seeds:
-        yield run_case(seed, settings)
+        yield run_case(seed, settings, intensity=intensity)
 
 
 def summary(outcomes: list[Outcome]) -> dict[str, dict[str, float]]:
@@ -131,5 +157,34 @@ def summary(outcomes: list[Outcome]) -> dict[str, dict[str, float]]:
                                               if mix20 else float("nan")),
             "mean first group size": float(np.mean([o.first_size for o in g])),
             "median s/case": float(np.median([o.seconds for o in g])),
+        }
+    return out
+
+
+def _band_label(k: int) -> str:
+    edges = [f"{100 * e:g}" for e in SHARE_BANDS]
+    if k == 0:
+        return f"< {edges[0]} %"
+    if k == len(SHARE_BANDS):
+        return f">= {edges[-1]} %"
+    return f"{edges[k - 1]}-{edges[k]} %"
+
+
+def reliability(outcomes: list[Outcome]) -> dict[str, dict[str, float]]:
+    """Does the kit's confidence hold?  Per band of ``first_share`` (``SHARE_BANDS``): the
+    cases, how often the (major) true isomer is in the first group, and the mean share the
+    kit gave its first group there (a calibrated kit has the two close).  Every band is
+    listed; an empty band has NaN rates."""
+    bands: list[list[Outcome]] = [[] for _ in range(len(SHARE_BANDS) + 1)]
+    for o in outcomes:
+        bands[sum(o.first_share >= e for e in SHARE_BANDS)].append(o)
+    out = {}
+    for k, g in enumerate(bands):
+        out[_band_label(k)] = {
+            "cases": len(g),
+            "true in first group": (float(np.mean([o.in_first for o in g])) if g
+                                    else math.nan),
+            "mean first share": (float(np.mean([o.first_share for o in g])) if g
+                                 else math.nan),
         }
     return out
