@@ -84,3 +84,33 @@ def test_compiled_dp_equals_its_python_source():
     back = getattr(_dp_back, "py_func", _dp_back)
     np.testing.assert_array_equal(_dp_back(hist, lc, imps, gather, offsets, state),
                                   back(ref, lc, imps, gather, offsets, state))
+
+
+def test_unseen_orbits_are_a_binomial_count_as_scipy_gives_it():
+    # any k of m alike orbits may be the lost ones: -ln Binom(k; m, p) (common practice,
+    # no source); cross-checked against scipy.stats.binom
+    from scipy.stats import binom
+
+    from cageprint.techniques.nmr_match import end_costs, missing_costs
+
+    costs = (0.3, 3, 2.0, 4.0, 0.0, 3.0, 2.0, 5.0)   # S/N per unit area known: a profile
+    values, counts, ln_s = [4, 2], (17, 5), 0.0
+    tables = end_costs(values, counts, ln_s, costs)
+    p = np.exp(-missing_costs(values, ln_s, costs))
+    for table, m, pi in zip(tables, counts, p, strict=True):
+        k = np.arange(m + 1)
+        assert np.allclose(table, -binom.logpmf(k, m, pi))
+    # peak lists: a perfect fit costs nothing, each lost orbit the flat cost less ln C(m, k)
+    flat = end_costs([2], (10,), None, costs[:6])[0]
+    assert flat[0] == 0.0 and np.isclose(flat[2], 6.0 - np.log(45.0))
+
+
+def test_losing_one_of_many_alike_orbits_is_cheaper_than_one_of_few():
+    # the same lost orbit is likelier among many alike ones (binomial count; common practice,
+    # no source)
+    from cageprint.techniques.nmr_match import end_costs
+
+    costs = (0.3, 3, 2.0, 4.0, 0.0, 3.0, 2.0, 5.0)
+    many = end_costs([2], (40,), 0.0, costs)[0]
+    few = end_costs([2], (4,), 0.0, costs)[0]
+    assert many[1] - many[0] < few[1] - few[0]
