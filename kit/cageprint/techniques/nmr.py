@@ -101,7 +101,7 @@ NMR_INTEGRAL_TOL = 0.3
 NMR_MAX_MERGE = 3
 #: costs (negative log-likelihood units) of the explanations
 NMR_MERGE_COST = 2.0
-NMR_MISSING_COST = 3.0
+NMR_MISSING_COST = 3.9  # -ln(nmr_match.LOST_ANYWAY): an orbit lost at high S/N
 #: an unexplained line costs NMR_IMPURITY_COST + NMR_IMPURITY_STRENGTH_COST * r**2, r its
 #: carbons (at the fitted scale) over the candidate's largest orbit: weak extra lines are
 #: cheap, lines as strong as the cage's own are not
