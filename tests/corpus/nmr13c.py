@@ -92,9 +92,14 @@ def _saturation(rng: np.random.Generator) -> tuple[OrbitFactors, dict]:
     """Partial saturation: factor 1 - exp(-TR/T1) per orbit (x a small noise factor), T1
     log-normal around the spectrum's median (pentagon-junction carbons of a cage shifted as a
     kind), TR/T1_median 0.2-3 per spectrum.  Source: partial saturation 1 - exp(-TR/T1),
-    common practice, no source; the ranges are invented."""
-    tr_ratio = float(np.exp(rng.uniform(np.log(TR_RATIO[0]), np.log(TR_RATIO[1]))))
-    t1_spread = float(rng.uniform(*T1_SPREAD))
+    common practice, no source; the ranges are invented.
+
+    Draws from ``rng`` in step with ``_lognormal`` (one uniform per spectrum and per cage,
+    one normal per orbit; the rest from a child generator), so a seed gives the same case
+    under both models but for the line areas."""
+    own = np.random.default_rng(int(rng.random() * 2 ** 53))
+    tr_ratio = float(np.exp(own.uniform(np.log(TR_RATIO[0]), np.log(TR_RATIO[1]))))
+    t1_spread = float(own.uniform(*T1_SPREAD))
 
     def factors(sizes: tuple[int, ...], shifts: np.ndarray, ipr: bool) -> list[float]:
         junction_t1 = float(np.exp(rng.uniform(np.log(JUNCTION_T1[0]), np.log(JUNCTION_T1[1]))))
@@ -103,7 +108,7 @@ def _saturation(rng: np.random.Generator) -> tuple[OrbitFactors, dict]:
             t1 = float(np.exp(rng.normal(0, t1_spread)))   # in units of the median T1
             if _junction(float(ppm), ipr):
                 t1 *= junction_t1
-            noise = float(np.exp(rng.normal(0, SATURATION_NOISE)))
+            noise = float(np.exp(own.normal(0, SATURATION_NOISE)))
             out.append((1.0 - np.exp(-tr_ratio / t1)) * noise)
         return out
 
