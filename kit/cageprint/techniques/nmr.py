@@ -10,7 +10,7 @@ predicted orbits, allowing what real spectra do:
 * orbits not seen (weak lines lost in noise),
 * a few impurity lines (cheap when weak, costly when as strong as the cage's own),
 * integrals off by 25 % or more (relaxation), weak lines by their noise too,
-* a mixture: the candidate beside a second pattern (profiles: either fitted first).
+* a mixture: the candidate beside a second pattern (profiles: the best pair, either role).
 
 Notes
 -----
@@ -23,11 +23,12 @@ line's scaled integral to its carbons over :data:`NMR_INTEGRAL_TOL` (halved),
 :data:`NMR_IMPURITY_COST` per impurity; with more than :data:`NMR_IMPURITY_ALLOWANCE`
 lines left over, a partner pattern at :data:`NMR_MIXTURE_COST` plus ln C(lines, partner
 lines).  Profiles (S/N and widths known) are scored by a stated likelihood instead: one
-relaxation spread for all candidates (of highest evidence on a 25-50 % grid), widened per
-line by its noise, normalised line densities, unseen orbits priced by their expected S/N,
-coincidences by the crowding, a Poisson count of impurities, the labelling of all
-observed lines, and the mixture searched both ways (:mod:`.nmr_mixture`).  The score
-is minus the cost, in nats.
+relaxation spread for all candidates (of highest evidence on a 25-50 % grid, or that of the
+best pair when a pair explains the lines best), widened per line by its noise, normalised
+line densities, unseen orbits priced by their expected S/N, coincidences by the crowding, a
+Poisson count of impurities, the labelling of all observed lines, and every pair with one
+of the best single patterns searched once per spectrum (:mod:`.nmr_pairs`), the minor's
+share fitted.  The score is minus the cost, in nats.
 """
 
 from __future__ import annotations
@@ -60,7 +61,8 @@ from .nmr_match import (
     shared_spread,
     tols_at,
 )
-from .nmr_mixture import PARTNER_FLAWS, _beside_major, _second_component
+from .nmr_mixture import PARTNER_FLAWS, _second_component, pair_mixture
+from .nmr_pairs import pair_fit
 from .nmr_shifts import (  # noqa: F401  (re-exported: one module per technique)
     ESTIMATE_C60_ANGLE_DEG,
     ESTIMATE_PPM_AT_C60,
@@ -436,10 +438,14 @@ def compare_nmr(
     # a profile's lines are labelled with impurities as one more kind; a peak list (no
     # S/N, no widths) keeps the labelling of the predicted orbits alone
     profile, spread, listed = bool(costs[6]), integral_tol, _partner_list(partners)
-    if profile and tols is not None:
+    table = None
+    if profile and tols is not None:  # one spread for all; pairs: see .nmr_pairs
         patterns = tuple(sorted({sizes} | {p for p, _ in listed}))
-        spread = shared_spread(patterns, tuple(logs), costs[:8], noise,
-                               _crowding_factor(observation))
+        args = (patterns, tuple(logs), costs[:8], noise, _crowding_factor(observation))
+        if partners:
+            spread, table = pair_fit(*args, (mixture_cost, minor_component_cost))
+        else:
+            spread = shared_spread(*args)
         tols = tols_at(spread, noise)
         costs = (spread,) + costs[1:]
     cost, picks, values, counts, ln_s = _fit(sizes, logs, costs, tols)
@@ -447,20 +453,15 @@ def compare_nmr(
         cost += labeling_cost(picks if profile else sizes)
     mixture = None
     unexplained = [j for j, k in enumerate(picks) if k is None]
-    if len(unexplained) > impurity_allowance and partners:
+    if table is not None:  # the candidate's best pair, either component
+        mixture = pair_mixture(sizes, table, dict(listed), weights, costs=costs, cost_alone=cost)
+    elif len(unexplained) > impurity_allowance and partners:
         mixture = _second_component(sizes, logs, picks, values, ln_s, weights,
-                                    unexplained=unexplained, tols=tols, profile=profile,
-                                    partners=listed[:NMR_MAX_PARTNERS],
+                                    unexplained=unexplained, partners=listed[:NMR_MAX_PARTNERS],
                                     costs=costs, cost_alone=cost, mixture_cost=mixture_cost,
                                     minor_component_cost=minor_component_cost)
-        if mixture is not None:
-            cost = mixture["cost"]
-    if profile and partners:  # the candidate as the minor isomer beside another pattern
-        beside = _beside_major(sizes, logs, weights, tols=tols, costs=costs, partners=listed,
-                               cost_alone=cost, crowding=_crowding_factor(observation),
-                               mixture_cost=mixture_cost, minor_component_cost=minor_component_cost)
-        if beside is not None:
-            mixture, cost, picks, ln_s = beside, beside["cost"], beside["picks"], beside["ln_s"]
+    if mixture is not None:
+        cost, picks, ln_s = mixture["cost"], mixture["picks"], mixture["ln_s"]
     lost_expected = float(np.dot(counts, np.exp(-missing_costs(values, ln_s if use else None,
                                                                costs))))
     return _verdict(observation, sizes, pattern, cost, picks, values, counts=counts, ln_s=ln_s,
@@ -526,15 +527,16 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, los
                        "accidental coincidence assumed).")
     if mixture:
         m = len(mixture["lines"])
+        share = "" if mixture.get("share") is None else f", share {100 * mixture['share']:.0f} %"
         if mixture["minor"]:
             reasons.append(f"fits only as the minor component ({100 * mixture['own_fraction']:.0f} "
                            f"% of the intensity) beside {mixture['label']} "
-                           f"({mixture['pattern']}).")
+                           f"({mixture['pattern']}{share}).")
         else:
             reasons.append(f"{m} further line{'s' if m != 1 else ''} "
                            f"({100 * mixture['fraction']:.0f} % of the intensity) fit a second "
-                           f"component: {mixture['label']} ({mixture['pattern']}); a mixture is "
-                           "assumed.")
+                           f"component: {mixture['label']} ({mixture['pattern']}{share}); a "
+                           "mixture is assumed.")
     if impurities:
         shown = ", ".join(f"{p:.2f}" for p in impurities[:5])
         more = f" and {len(impurities) - 5} more" if len(impurities) > 5 else ""
@@ -591,6 +593,7 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, los
         "second_component": None if not mixture else {
             "label": mixture["label"], "pattern": mixture["pattern"],
             "lines": [obs.positions[j] for j in mixture["lines"]],
-            "fraction": mixture["fraction"], "minor": mixture["minor"]},
+            "fraction": mixture["fraction"], "minor": mixture["minor"],
+            "share": mixture.get("share")},
     }
     return TechniqueVerdict("nmr", -cost, verdict, tuple(reasons), details)

@@ -53,12 +53,15 @@ def _layout(sizes: tuple[int, ...], max_merge: int):
             np.asarray(offsets, dtype=np.intp), left)
 
 
-def _assign(sizes, logs, ln_scale, costs, tols=None):
+def _assign(sizes, logs, ln_scale, costs, tols=None, aside=None):
     """Best explanation of the lines by the orbits, for one integral scale.
 
     ``costs`` is (tol, max_merge, c_merge, c_imp, c_strong, c_miss, snr_per_area,
     snr_min): see :func:`missing_costs` for the last three.  ``tols`` gives each line
     its own log-integral spread (noise widens that of weak lines); default ``tol``.
+    ``aside`` (:class:`cageprint.techniques.nmr_pairs.Aside`) prices a line these orbits
+    leave as what else it may be in a mixture (the other component's, or an impurity
+    judged against both components' orbits); default an impurity of this pattern alone.
 
     Returns (cost, per-line choice vectors or None for impurity, values, counts).
 
@@ -81,8 +84,13 @@ def _assign(sizes, logs, ln_scale, costs, tols=None):
     if have:
         shifted = np.array([ell + ln_scale for ell in logs])
         spread = np.full(n_lines, tol) if tols is None else np.asarray(tols, float)
-        z = (shifted[:, None] - log_contents[None, :]) / spread[:, None]
-        line_costs = 0.5 * z * z + merge
+        per_option = option_spreads(spread, tol, values, options) if tols is not None else None
+        if per_option is None:
+            z = (shifted[:, None] - log_contents[None, :]) / spread[:, None]
+            line_costs = 0.5 * z * z + merge
+        else:
+            z = (shifted[:, None] - log_contents[None, :]) / per_option
+            line_costs = 0.5 * z * z + merge + np.log(per_option / spread[:, None])
         imps = []
         for ell in logs:
             r = math.exp(ell + ln_scale) / top
@@ -92,6 +100,8 @@ def _assign(sizes, logs, ln_scale, costs, tols=None):
         imps = [c_imp] * n_lines
     line_costs = np.ascontiguousarray(line_costs, dtype=np.float64)
     imps_arr = np.asarray(imps, dtype=np.float64)
+    if aside is not None and have:
+        imps_arr = aside.none_costs(shifted, ln_scale, spread, top, costs)
     history = _dp_forward(line_costs, imps_arr, gather)
     left_i = left.astype(np.intp)
     total = history[n_lines, :n_states] + sum(
@@ -102,6 +112,23 @@ def _assign(sizes, logs, ln_scale, costs, tols=None):
     picks: list[tuple[int, ...] | None] = [None if o < 0 else options[o]
                                            for o in chosen.tolist()]
     return cost, picks, values, counts
+
+
+def option_spreads(tols, spread, values, options):
+    """Each line's log-integral spread for each option: the relaxation part of a line that
+    carries several orbits is narrower, as their independent factors average out
+    (``spread * sqrt(sum c_i**2) / sum c_i``, the first-order spread of a sum of
+    log-normal terms; common practice, no source); the noise part (``tols`` beyond
+    ``spread``) stays.  None when no option merges orbits."""
+    factors = []
+    for k in options:
+        parts = [v for ki, v in zip(k, values, strict=True) for _ in range(ki)]
+        factors.append(math.sqrt(sum(c * c for c in parts)) / sum(parts))
+    if all(f == 1.0 for f in factors):
+        return None
+    tols = np.asarray(tols, float)
+    noise2 = np.maximum(tols * tols - spread * spread, 0.0)
+    return np.sqrt(noise2[:, None] + (spread * np.asarray(factors))[None, :] ** 2)
 
 
 @njit(cache=True)
@@ -218,11 +245,11 @@ def end_costs(values, counts, ln_scale, costs) -> list[np.ndarray]:
     return out
 
 
-def _fit(sizes, logs, costs, tols=None):
+def _fit(sizes, logs, costs, tols=None, aside=None):
     """Best assignment over the integral scale (memoised: see :func:`_fit_cached`):
     (cost, picks, values, counts, ln scale)."""
     return _fit_cached(tuple(sizes), tuple(logs), tuple(costs),
-                       None if tols is None else tuple(tols))[:5]
+                       None if tols is None else tuple(tols), aside)[:5]
 
 
 def fit_spread(sizes, logs, costs, tols=None) -> float:
@@ -233,7 +260,7 @@ def fit_spread(sizes, logs, costs, tols=None) -> float:
 
 
 @functools.lru_cache(maxsize=4096)
-def _fit_cached(sizes, logs, costs, tols=None):
+def _fit_cached(sizes, logs, costs, tols=None, aside=None):
     """Best assignment over the integral scale, merges charged from the crowding.
 
     A pure function of hashable arguments, so it is memoised: the mixture
@@ -245,13 +272,16 @@ def _fit_cached(sizes, logs, costs, tols=None):
     of its normal density relative to that at :data:`NMR_SPREAD_REFERENCE`, so that
     against the fixed density of an impurity a line is priced by how tightly the
     integrals are known (common practice, no source: a normalised Gaussian likelihood).
+    Lines left to another component (``aside`` with a pattern) are not counted as
+    impurities here: the pair search prices the whole explanation afterwards.
     """
-    res = _fit_merges(sizes, logs, costs, tols)
+    res = _fit_merges(sizes, logs, costs, tols, aside)
     if tols is None:
         return res
     norm = sum(math.log(tols[j] / NMR_SPREAD_REFERENCE) for j, k in enumerate(res[1])
                if k is not None)
-    norm += impurity_count_cost(sum(1 for k in res[1] if k is None))
+    if aside is None or not aside.sizes:
+        norm += impurity_count_cost(sum(1 for k in res[1] if k is None))
     return (res[0] + norm,) + tuple(res[1:])
 
 
@@ -353,7 +383,7 @@ def tols_at(spread: float, noise) -> tuple[float, ...] | None:
     return tuple(math.hypot(spread, n) for n in noise)
 
 
-def _fit_merges(sizes, logs, costs, tols=None):
+def _fit_merges(sizes, logs, costs, tols=None, aside=None):
     """Best assignment over the integral scale, merges charged from the crowding.
 
     Two starting scales (all carbons seen; the commonest orbit on the median
@@ -367,12 +397,12 @@ def _fit_merges(sizes, logs, costs, tols=None):
     """
     p0 = costs[8] if len(costs) > 8 else 0.0
     if not p0:
-        return _fit_scale(sizes, logs, costs, tols)
+        return _fit_scale(sizes, logs, costs, tols, aside)
     tried = []
     c_merge = math.log((1.0 - p0) / p0)
     for _ in range(2):
         trial = tuple(costs[:2]) + (c_merge,) + tuple(costs[3:])
-        res = _fit_scale(sizes, logs, trial, tols)
+        res = _fit_scale(sizes, logs, trial, tols, aside)
         merges = sum(sum(k) - 1 for k in res[1] if k is not None)
         seen = sum(sum(k) for k in res[1] if k is not None)
         total = res[0] - c_merge * merges + merge_cost_total(merges, seen, p0)
@@ -416,17 +446,19 @@ def _lbeta(a: float, b: float) -> float:
     return math.lgamma(a) + math.lgamma(b) - math.lgamma(a + b)
 
 
-def _fit_scale(sizes, logs, costs, tols=None):
+def _fit_scale(sizes, logs, costs, tols=None, aside=None):
     use = logs and logs[0] is not None
     if not use:
-        return _assign(sizes, logs, 0.0, costs, tols) + (0.0,)
+        return _assign(sizes, logs, 0.0, costs, tols, aside) + (0.0,)
     counts = {v: sizes.count(v) for v in set(sizes)}
     v_mode = max(counts, key=lambda v: (counts[v], v))
     total = sum(math.exp(ell) for ell in logs)
     starts = [math.log(sum(sizes) / total), math.log(v_mode) - float(np.median(logs))]
     if abs(starts[1] - starts[0]) < 1e-3:
         starts = starts[:1]
-    best = min((_assign(sizes, logs, ln_s, costs, tols) + (ln_s,) for ln_s in starts),
+    if aside is not None and aside.start is not None:  # e.g. the pattern's scale alone
+        starts = [aside.start]
+    best = min((_assign(sizes, logs, ln_s, costs, tols, aside) + (ln_s,) for ln_s in starts),
                key=lambda r: r[0])
     seen = {round(r, 6) for r in starts}
     for _ in range(4):
@@ -440,7 +472,7 @@ def _fit_scale(sizes, logs, costs, tols=None):
         if round(new_s, 6) in seen:
             break
         seen.add(round(new_s, 6))
-        res = _assign(sizes, logs, new_s, costs, tols) + (new_s,)
+        res = _assign(sizes, logs, new_s, costs, tols, aside) + (new_s,)
         if res[0] >= best[0] - 1e-12:
             break
         best = res
