@@ -388,11 +388,13 @@ def rank(
     # order: not ruled out first, then by score (best first); identical keys keep
     # their relative order only for display - they share the rank
     scored.sort(key=lambda s: (s.out, -s.total))
-    kept = [s.total for s in scored if not s.out]
+    # shares from the totals as the display orders them (to 1e-6 nats), so that equal
+    # shown totals get equal shares and a lower row never shows a larger one
+    kept = [round(s.total, 6) for s in scored if not s.out]
     best = kept[0] if kept else 0.0
     norm = math.fsum(math.exp(t - best) for t in kept) if kept else 1.0
     floor = "consistent"  # the word of the row above: a lower row never sounds better
-    lowest_kept = kept[-1] if kept else math.inf
+    lowest_kept = min((s.total for s in scored if not s.out), default=math.inf)
     groups = _groups(scored, tie_tol)
     rows: list[RankedRow] = []
     weighted = [t for t in with_data if w[t] > 0]
@@ -425,7 +427,7 @@ def rank(
                 score=min(s.total, lowest_kept) if s.out else s.total, verdict=row_word,
                 verdicts={t: per[t][s.index] for t in order},
                 tied_with=others, tie_reason=tie_reason, reasons=s.reasons,
-                share=0.0 if s.out else math.exp(s.total - best) / norm,
+                share=0.0 if s.out else math.exp(round(s.total, 6) - best) / norm,
             ))
     return Ranking(rows=tuple(rows), weights=MappingProxyType(w), techniques=order,
                    with_data=with_data, tie_tol=tie_tol)
