@@ -229,6 +229,9 @@ def _views_notebook(path: Path) -> None:
         "session = cpw.setup(demo=None)\n"
         "cage = next(c for c in iter_isomers(84) if len(fingerprint(c).nmr.orbits) == 84)\n"
         "cpw.cage_figures(Candidate.from_cage(cage, fingerprint(cage)))[1]",
+        # the flat view of D2 C76: 19 four-carbon orbits, one size class
+        "c76 = next(c for c in iter_isomers(76, ipr=True) if len(fingerprint(c).nmr.orbits) == 19)\n"
+        "cpw.cage_figures(Candidate.from_cage(c76, fingerprint(c76)))[1]",
         # every isomer of C80 in the chooser, shown before the list is computed
         "chooser = cpw.CandidateChooser(session, ipr=False)\n"
         "display(chooser.ui)\n"
@@ -241,7 +244,7 @@ def _views_notebook(path: Path) -> None:
 
 
 def test_orbit_markers_and_an_all_isomer_list_in_the_page(lab):
-    # issue 15: a C1 C84 flat view has no two orbits sharing a rendered colour + marker pair,
+    # issue 15: a C1 C84 and a D2 C76 (19 orbits) flat view have no two orbits sharing a rendered colour + marker pair,
     # hovering names the orbit; "all isomers" of C80 (31,924 cages, Fowler & Manolopoulos,
     # An Atlas of Fullerenes, 1995, from memory) shows a progress bar while computed, its
     # first page within 2 s of the list being ready, and a re-sort of every row within 1 s
@@ -258,18 +261,26 @@ def test_orbit_markers_and_an_all_isomer_list_in_the_page(lab):
             # 1. the flat view: one rendered (fill, marker shape) pair per orbit trace
             flat = panel.locator(".js-plotly-plot").first
             flat.locator(".main-svg").first.wait_for(timeout=120_000)
-            pairs = page.evaluate(
-                """() => Array.from(document.querySelectorAll('.js-plotly-plot')[0]
+            panel.locator(".js-plotly-plot").nth(1).locator(".main-svg").first.wait_for(
+                timeout=120_000)
+            js = """(i) => Array.from(document.querySelectorAll('.js-plotly-plot')[i]
                         .querySelectorAll('g.trace.scatter'))
                     .map(g => g.querySelector('path.point'))
                     .filter(pt => pt !== null)
-                    .map(pt => pt.style.fill + '|' + pt.getAttribute('d'))""")
+                    .map(pt => pt.style.fill + '|' + pt.getAttribute('d'))"""
+            pairs = page.evaluate(js, 0)
             assert len(pairs) == 84 and len(set(pairs)) == 84, pairs[:6]
+            # D2 C76, 19 orbits of one size (Fowler & Manolopoulos, An Atlas of Fullerenes,
+            # 1995, from memory): 19 pairs, none shared, although one size class gives one shape
+            pairs19 = page.evaluate(js, 1)
+            assert len(pairs19) == 19 and len(set(pairs19)) == 19, pairs19[:6]
             flat.locator("path.point").first.hover(force=True)
             expect(page.locator(".hoverlayer .hovertext").first).to_contain_text(
                 "orbit", timeout=10_000)
             flat.scroll_into_view_if_needed()
             page.screenshot(path=str(shots / "e2e-orbits-c84-flat.png"))
+            panel.locator(".js-plotly-plot").nth(1).scroll_into_view_if_needed()
+            page.screenshot(path=str(shots / "e2e-orbits-c76-flat.png"))
             # 2. the C80 list: a progress bar first, then the first page soon after
             bar = panel.locator(".cp-library-progress .widget-hprogress, "
                                 ".cp-library-progress progress").first
