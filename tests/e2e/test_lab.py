@@ -230,7 +230,8 @@ def _views_notebook(path: Path) -> None:
         "cage = next(c for c in iter_isomers(84) if len(fingerprint(c).nmr.orbits) == 84)\n"
         "cpw.cage_figures(Candidate.from_cage(cage, fingerprint(cage)))[1]",
         # the flat view of D2 C76: 19 four-carbon orbits, one size class
-        "c76 = next(c for c in iter_isomers(76, ipr=True) if len(fingerprint(c).nmr.orbits) == 19)\n"
+        "c76 = next(c for c in iter_isomers(76, ipr=True)\n"
+        "           if len(fingerprint(c).nmr.orbits) == 19)\n"
         "cpw.cage_figures(Candidate.from_cage(c76, fingerprint(c76)))[1]",
         # every isomer of C80 in the chooser, shown before the list is computed
         "chooser = cpw.CandidateChooser(session, ipr=False)\n"
@@ -244,8 +245,8 @@ def _views_notebook(path: Path) -> None:
 
 
 def test_orbit_markers_and_an_all_isomer_list_in_the_page(lab):
-    # issue 15: a C1 C84 and a D2 C76 (19 orbits) flat view have no two orbits sharing a rendered colour + marker pair,
-    # hovering names the orbit; "all isomers" of C80 (31,924 cages, Fowler & Manolopoulos,
+    # issue 15: a C1 C84 and a D2 C76 (19 orbits) flat view have no two orbits sharing a
+    # rendered colour + marker pair, hovering names the orbit; "all isomers" of C80 (31,924 cages, Fowler & Manolopoulos,
     # An Atlas of Fullerenes, 1995, from memory) shows a progress bar while computed, its
     # first page within 2 s of the list being ready, and a re-sort of every row within 1 s
     # (common practice, no source)
