@@ -246,10 +246,10 @@ def _views_notebook(path: Path) -> None:
 
 def test_orbit_markers_and_an_all_isomer_list_in_the_page(lab):
     # issue 15: a C1 C84 and a D2 C76 (19 orbits) flat view have no two orbits sharing a
-    # rendered colour + marker pair, hovering names the orbit; "all isomers" of C80 (31,924 cages, Fowler & Manolopoulos,
-    # An Atlas of Fullerenes, 1995, from memory) shows a progress bar while computed, its
-    # first page within 2 s of the list being ready, and a re-sort of every row within 1 s
-    # (common practice, no source)
+    # rendered colour + marker pair, hovering names the orbit; "all isomers" of C80 (31,924
+    # cages, Fowler & Manolopoulos, An Atlas of Fullerenes, 1995, from memory) shows a
+    # progress bar while computed, its first page within 2 s of the list being ready, and a
+    # re-sort of every row within 1 s (common practice, no source)
     from playwright.sync_api import expect, sync_playwright
 
     shots = _shots()
