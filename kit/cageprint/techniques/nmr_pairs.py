@@ -41,7 +41,6 @@ from .nmr_match import (
     labeling_cost,
     merge_cost_total,
     missing_costs,
-    option_spreads,
     shared_spread,
     tols_at,
 )
@@ -136,12 +135,8 @@ def explanation_cost(sizes, logs, tols, picks, ln_s, costs) -> float:
         if k is None:
             continue
         c = sum(ki * v for ki, v in zip(k, values, strict=True))
-        tol = tols[j]
-        if sum(k) > 1:  # the relaxation parts of merged orbits average out
-            per = option_spreads([tol], costs[0], values, [k])
-            tol = tol if per is None else float(per[0, 0])
-        z = (logs[j] + ln_s - math.log(c)) / tol
-        cost += 0.5 * z * z + math.log(tol / NMR_SPREAD_REFERENCE)
+        z = (logs[j] + ln_s - math.log(c)) / tols[j]
+        cost += 0.5 * z * z + math.log(tols[j] / NMR_SPREAD_REFERENCE)
         merges += sum(k) - 1
         seen += sum(k)
         used = [u + ki for u, ki in zip(used, k, strict=True)]
