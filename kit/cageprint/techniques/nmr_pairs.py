@@ -19,9 +19,10 @@ first, the major), and the best explanation found is kept:
 Every explanation is priced by one likelihood whichever start found it
 (:func:`pair_cost`): each component's own lines, coincidences and unseen orbits at its own
 scale, lines neither carries as impurities judged against the stronger component's largest
-orbit, their count, the labelling of all lines, and the cost of assuming a mixture.  The
-minor component pays :data:`~cageprint.techniques.nmr.NMR_MINOR_COMPONENT_COST` more in its
-own row.  Common practice, no source (a two-component mixture model, alternating fits).
+orbit, their count, the labelling of all lines, and the cost of assuming a mixture with
+that partner.  The minor component pays
+:data:`~cageprint.techniques.nmr.NMR_MINOR_COMPONENT_COST` more in its own row.  Common
+practice, no source (a two-component mixture model, alternating fits).
 """
 
 from __future__ import annotations
@@ -278,7 +279,8 @@ def pair_table(patterns, logs, costs, tols, crowding: float,
     crowding : float
         The spectrum's coincidence factor (each pattern's rate follows from it).
     prices : (float, float)
-        Cost of assuming a mixture, and the minor component's extra cost.
+        Cost of assuming a mixture (naming the partner costs ln(patterns - 1) more), and
+        the minor component's extra cost.
 
     Returns
     -------
@@ -293,7 +295,10 @@ def pair_table(patterns, logs, costs, tols, crowding: float,
     in the :data:`NMR_PAIR_FOLLOW` best pairs found that led none yet (a mixture's major
     may fit worse alone than patterns like it that absorb some of the minor's lines).
     """
-    lines = _Lines(tuple(logs), tuple(tols), tuple(costs), crowding, prices[0])
+    # assuming a mixture costs prices[0]; its partner is one of the other patterns, each as
+    # likely a priori (common practice, no source: a uniform prior over partners)
+    partner = math.log(max(1, len(patterns) - 1))
+    lines = _Lines(tuple(logs), tuple(tols), tuple(costs), crowding, prices[0] + partner)
     singles = {p: _fit(p, lines.logs, lines.costs_of(p), lines.tols) for p in patterns}
     alone = {p: singles[p][0] + labeling_cost(singles[p][1]) for p in patterns}
     order = sorted(patterns, key=alone.__getitem__)
@@ -356,7 +361,7 @@ def pair_fit(patterns, logs, costs, noise, crowding: float, prices: tuple[float,
 
         def cost_at(s: float, top: Pair = top) -> float:
             at = _Lines(logs, tols_at(s, noise) or (), (s,) + tuple(costs[1:8]), crowding,
-                        prices[0])
+                        prices[0])  # the same pair at every spread: its prior does not matter
             return pair_cost(at, top.patterns, top.picks, top.ln_s)
 
         new = min(NMR_PAIR_SPREAD_GRID, key=cost_at)
