@@ -5,8 +5,9 @@ Fitting one pattern first and giving the other what it leaves (greedy) fails whe
 lines are as tall as the major's smaller orbits: the first pattern takes them.  Here the pairs
 are searched once per spectrum (:func:`pair_table`, memoised on hashable inputs): each of the
 :data:`NMR_PAIR_LEADERS` patterns that fit best alone leads a pair with every other pattern.
-Each pair is fitted from several starts, in both orders (the order names the component fitted
-first, the major), and the best explanation found is kept:
+Each pair is fitted from several starts, in both orders (which pattern is fitted first), and
+every explanation found is kept for the rows (a pattern's row: its cheapest one, with the
+minor's extra cost where it is the minor).  The search is not exhaustive (nor bounded):
 
 * the first pattern alone, the second fitted exactly (the assignment DP) to the lines left;
 * jointly at one shared scale: the second's carbons per unit area are the first's times the
