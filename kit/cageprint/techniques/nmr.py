@@ -552,11 +552,11 @@ def _verdict(obs, sizes, pattern, cost, picks, values, *, counts, ln_s, use, los
                        f"(tolerance {100 * tol:.0f} %).")
     lost_limit = max(2, math.floor(lost_allowance * n_pred))
     too_many = len(impurities) > impurity_allowance and imp_fraction > minor_fraction
-    # a minor component's orbits may hide under the major's lines (its cost carries them)
-    hidden = bool(mixture and mixture["minor"]) and lost > lost_limit
+    # a minor's (or, in a fitted pair, either one's) orbits may hide under the other's lines
+    hidden = bool(mixture and (mixture["minor"] or mixture.get("share"))) and lost > lost_limit
     if hidden:
-        reasons.append(f"As the minor component, {lost} of its orbits merged or missing may "
-                       "lie under the major component's lines.")
+        reasons.append(f"As a mixture component, {lost} of its orbits merged or missing may "
+                       "lie under the other component's lines.")
     if too_many or (lost > lost_limit and not hidden):
         verdict = "ruled out"
         why = []

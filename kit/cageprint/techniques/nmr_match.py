@@ -84,13 +84,8 @@ def _assign(sizes, logs, ln_scale, costs, tols=None, aside=None):
     if have:
         shifted = np.array([ell + ln_scale for ell in logs])
         spread = np.full(n_lines, tol) if tols is None else np.asarray(tols, float)
-        per_option = option_spreads(spread, tol, values, options) if tols is not None else None
-        if per_option is None:
-            z = (shifted[:, None] - log_contents[None, :]) / spread[:, None]
-            line_costs = 0.5 * z * z + merge
-        else:
-            z = (shifted[:, None] - log_contents[None, :]) / per_option
-            line_costs = 0.5 * z * z + merge + np.log(per_option / spread[:, None])
+        z = (shifted[:, None] - log_contents[None, :]) / spread[:, None]
+        line_costs = 0.5 * z * z + merge
         imps = []
         for ell in logs:
             r = math.exp(ell + ln_scale) / top
@@ -112,23 +107,6 @@ def _assign(sizes, logs, ln_scale, costs, tols=None, aside=None):
     picks: list[tuple[int, ...] | None] = [None if o < 0 else options[o]
                                            for o in chosen.tolist()]
     return cost, picks, values, counts
-
-
-def option_spreads(tols, spread, values, options):
-    """Each line's log-integral spread for each option: the relaxation part of a line that
-    carries several orbits is narrower, as their independent factors average out
-    (``spread * sqrt(sum c_i**2) / sum c_i``, the first-order spread of a sum of
-    log-normal terms; common practice, no source); the noise part (``tols`` beyond
-    ``spread``) stays.  None when no option merges orbits."""
-    factors = []
-    for k in options:
-        parts = [v for ki, v in zip(k, values, strict=True) for _ in range(ki)]
-        factors.append(math.sqrt(sum(c * c for c in parts)) / sum(parts))
-    if all(f == 1.0 for f in factors):
-        return None
-    tols = np.asarray(tols, float)
-    noise2 = np.maximum(tols * tols - spread * spread, 0.0)
-    return np.sqrt(noise2[:, None] + (spread * np.asarray(factors))[None, :] ** 2)
 
 
 @njit(cache=True)

@@ -5,8 +5,9 @@ Fitting one pattern first and giving the other what it leaves (greedy) fails whe
 lines are as tall as the major's smaller orbits: the first pattern takes them.  Here the pairs
 are searched once per spectrum (:func:`pair_table`, memoised on hashable inputs): each of the
 :data:`NMR_PAIR_LEADERS` patterns that fit best alone leads a pair with every other pattern.
-Each pair is fitted from several starts, in both orders (the order names the component fitted
-first, the major), and the best explanation found is kept:
+Each pair is fitted from several starts, in both orders (which pattern is fitted first), and
+every explanation found is kept for the rows (a pattern's row: its cheapest one, with the
+minor's extra cost where it is the minor).  The search is not exhaustive (nor bounded):
 
 * the first pattern alone, the second fitted exactly (the assignment DP) to the lines left;
 * jointly at one shared scale: the second's carbons per unit area are the first's times the
@@ -19,9 +20,10 @@ first, the major), and the best explanation found is kept:
 Every explanation is priced by one likelihood whichever start found it
 (:func:`pair_cost`): each component's own lines, coincidences and unseen orbits at its own
 scale, lines neither carries as impurities judged against the stronger component's largest
-orbit, their count, the labelling of all lines, and the cost of assuming a mixture.  The
-minor component pays :data:`~cageprint.techniques.nmr.NMR_MINOR_COMPONENT_COST` more in its
-own row.  Common practice, no source (a two-component mixture model, alternating fits).
+orbit, their count, the labelling of all lines, and the cost of assuming a mixture with
+that partner.  The minor component pays
+:data:`~cageprint.techniques.nmr.NMR_MINOR_COMPONENT_COST` more in its own row.  Common
+practice, no source (a two-component mixture model, alternating fits).
 """
 
 from __future__ import annotations
@@ -41,7 +43,6 @@ from .nmr_match import (
     impurity_count_cost,
     labeling_cost,
     merge_cost_total,
-    option_spreads,
     shared_spread,
     tols_at,
 )
@@ -136,12 +137,8 @@ def explanation_cost(sizes, logs, tols, picks, ln_s, costs) -> float:
         if k is None:
             continue
         c = sum(ki * v for ki, v in zip(k, values, strict=True))
-        tol = tols[j]
-        if sum(k) > 1:  # the relaxation parts of merged orbits average out
-            per = option_spreads([tol], costs[0], values, [k])
-            tol = tol if per is None else float(per[0, 0])
-        z = (logs[j] + ln_s - math.log(c)) / tol
-        cost += 0.5 * z * z + math.log(tol / NMR_SPREAD_REFERENCE)
+        z = (logs[j] + ln_s - math.log(c)) / tols[j]
+        cost += 0.5 * z * z + math.log(tols[j] / NMR_SPREAD_REFERENCE)
         merges += sum(k) - 1
         seen += sum(k)
         used = [u + ki for u, ki in zip(used, k, strict=True)]
@@ -194,6 +191,11 @@ class _Lines:
         p0 = coincidence_rate(self.crowding, len(sizes))
         return math.log((1.0 - p0) / p0) if p0 else float(self.costs[2])
 
+    def flat_costs(self, sizes) -> tuple:
+        """The fit costs with coincidences at :meth:`merge_cost` each (no rate re-fitted):
+        for fits that only choose lines, the pair being priced afterwards."""
+        return tuple(self.costs[:2]) + (self.merge_cost(sizes),) + tuple(self.costs[3:8])
+
 
 def pair_cost(lines: _Lines, patterns, picks, ln_s) -> float:
     """The likelihood price of a two-pattern explanation (module docstring)."""
@@ -213,13 +215,14 @@ def pair_cost(lines: _Lines, patterns, picks, ln_s) -> float:
 
 
 def _complete(lines: _Lines, first, fit_first, second) -> Pair | None:
-    """``second`` fitted exactly to the lines ``first`` leaves; the pair, priced."""
+    """``second`` fitted exactly (the DP, coincidences at a flat cost) to the lines
+    ``first`` leaves; the pair, priced."""
     picks_f, s_f = fit_first[1], fit_first[4]
     left = [j for j, k in enumerate(picks_f) if k is None]
     if not left:
         return None
     aside = Aside(ref_area=math.log(max(first)) - s_f)
-    res = _fit(second, tuple(lines.logs[j] for j in left), lines.costs_of(second),
+    res = _fit(second, tuple(lines.logs[j] for j in left), lines.flat_costs(second),
                tuple(lines.tols[j] for j in left), aside)
     picks_s: list = [None] * len(picks_f)
     for i, k in enumerate(res[1]):
@@ -233,11 +236,10 @@ def _joint(lines: _Lines, first, second, rho: float, start: float) -> Pair | Non
     """The pair fitted at one ratio of scales: ``first`` aware of ``second``, then exact.
 
     The first pattern's fit here only chooses which lines it leaves (the pair is priced
-    afterwards), so its coincidences cost a flat amount each, at the expected rate.
+    afterwards), so its coincidences cost a flat amount each (:meth:`_Lines.flat_costs`).
     """
     aside = Aside(sizes=second, rho=rho, merge_cost=lines.merge_cost(second), start=start)
-    flat = tuple(lines.costs[:2]) + (lines.merge_cost(first),) + tuple(lines.costs[3:8])
-    fit_first = _fit(first, lines.logs, flat, lines.tols, aside)
+    fit_first = _fit(first, lines.logs, lines.flat_costs(first), lines.tols, aside)
     return _complete(lines, first, fit_first, second)
 
 
@@ -268,8 +270,8 @@ def _jointly(lines: _Lines, a, b, singles) -> list[Pair]:
 
 
 @functools.lru_cache(maxsize=32)
-def pair_table(patterns, logs, costs, tols, crowding: float,
-               prices: tuple[float, float]) -> dict:
+def pair_table(patterns, logs, costs, tols, crowding: float, prices: tuple[float, float], *,
+               quick: bool = False) -> dict:
     """Each pattern's best two-pattern explanation of a profile's lines.
 
     Parameters
@@ -283,7 +285,10 @@ def pair_table(patterns, logs, costs, tols, crowding: float,
     crowding : float
         The spectrum's coincidence factor (each pattern's rate follows from it).
     prices : (float, float)
-        Cost of assuming a mixture, and the minor component's extra cost.
+        Cost of assuming a mixture (naming the partner costs ln(patterns - 1) more), and
+        the minor component's extra cost.
+    quick : bool
+        Greedy fits only (no joint fit): a first look.
 
     Returns
     -------
@@ -298,7 +303,7 @@ def pair_table(patterns, logs, costs, tols, crowding: float,
     in the :data:`NMR_PAIR_FOLLOW` best pairs found that led none yet (a mixture's major
     may fit worse alone than patterns like it that absorb some of the minor's lines).
     """
-    lines = _Lines(tuple(logs), tuple(tols), tuple(costs), crowding, prices[0])
+    lines = _lines_of(patterns, logs, costs, tols, crowding, prices)
     singles = {p: _fit(p, lines.logs, lines.costs_of(p), lines.tols) for p in patterns}
     alone = {p: singles[p][0] + labeling_cost(singles[p][1]) for p in patterns}
     order = sorted(patterns, key=alone.__getitem__)
@@ -318,7 +323,7 @@ def pair_table(patterns, logs, costs, tols, crowding: float,
                     new.append((key, lead, other))
         limit = min((p.cost for f in found.values() for p in f), default=0.0) + NMR_PAIR_WINDOW
         for key, lead, other in new:
-            if found[key] and min(p.cost for p in found[key]) <= limit:
+            if not quick and found[key] and min(p.cost for p in found[key]) <= limit:
                 found[key] += _jointly(lines, lead, other, singles)
         done.update(leaders)
         ranked = sorted((min(f, key=lambda p: p.cost) for f in found.values() if f),
@@ -334,37 +339,51 @@ def pair_table(patterns, logs, costs, tols, crowding: float,
     return table
 
 
+def _lines_of(patterns, logs, costs, tols, crowding, prices) -> _Lines:
+    """The shared fit settings of a table; assuming a mixture costs ``prices[0]``, and its
+    partner is one of the other patterns, each as likely a priori (common practice, no
+    source: a uniform prior over partners)."""
+    partner = math.log(max(1, len(patterns) - 1))
+    return _Lines(tuple(logs), tuple(tols), tuple(costs), crowding, prices[0] + partner)
+
+
 @functools.lru_cache(maxsize=32)
 def pair_fit(patterns, logs, costs, noise, crowding: float, prices: tuple[float, float]):
     """The shared relaxation spread and the :func:`pair_table` at it.
 
     The spread starts at that of the single patterns' evidence
-    (:func:`~.nmr_match.shared_spread`).  When a pair explains the lines better than every
-    single pattern, the spread moves to the grid value at which that best pair's
-    explanation is most probable, and the table is searched again there, until the spread
-    stays (coordinate descent on the best explanation and the spread; common practice, no
-    source).  A mixture seen through single patterns looks like a loose spread; through
-    the right pair it does not.  ``costs`` and ``noise`` as for :func:`shared_spread`.
+    (:func:`~.nmr_match.shared_spread`).  When the best pair of a first look (greedy fits,
+    then that pair fitted jointly as well) explains the lines better than every single
+    pattern, the spread moves to the value of :data:`NMR_PAIR_SPREAD_GRID` at which that
+    pair's explanation is most probable, and the first look is taken again there, until
+    the spread stays (coordinate descent on the best explanation and the spread; common
+    practice, no source); the full table is searched at that spread.  A mixture seen
+    through single patterns looks like a loose spread; through the right pair it does not.
+    ``costs`` and ``noise`` as for :func:`shared_spread`.
     """
     spread = shared_spread(patterns, logs, costs, noise, crowding)
     seen = set()
-    while True:
+    while spread not in seen:
         seen.add(spread)
         trial = (spread,) + tuple(costs[1:8])
-        table = pair_table(patterns, logs, trial, tols_at(spread, noise), crowding, prices)
-        pairs = [row[1] for p, row in table.items() if p is not None]
+        tols = tols_at(spread, noise) or ()
+        first = pair_table(patterns, logs, trial, tols, crowding, prices, quick=True)
+        pairs = [row[1] for p, row in first.items() if p is not None]
         if not pairs:
-            return spread, table
-        top = min(pairs, key=lambda p: p.cost)
-        if top.cost >= table[None]:
-            return spread, table
+            break
+        lines = _lines_of(patterns, logs, trial, tols, crowding, prices)
+        a, b = min(pairs, key=lambda p: p.cost).patterns
+        singles = {p: _fit(p, logs, lines.costs_of(p), tols) for p in (a, b)}
+        top = min(pairs + _jointly(lines, a, b, singles), key=lambda p: p.cost)
+        if top.cost >= first[None]:
+            break
 
         def cost_at(s: float, top: Pair = top) -> float:
             at = _Lines(logs, tols_at(s, noise) or (), (s,) + tuple(costs[1:8]), crowding,
-                        prices[0])
+                        prices[0])  # the same pair at every spread: its prior does not matter
             return pair_cost(at, top.patterns, top.picks, top.ln_s)
 
-        new = min(NMR_PAIR_SPREAD_GRID, key=cost_at)
-        if new in seen:
-            return spread, table
-        spread = new
+        spread = min(NMR_PAIR_SPREAD_GRID, key=cost_at)
+    trial = (spread,) + tuple(costs[1:8])
+    return spread, pair_table(patterns, logs, trial, tols_at(spread, noise) or (), crowding,
+                              prices)
