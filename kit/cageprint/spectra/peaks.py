@@ -230,6 +230,7 @@ def pick_peaks(
     fit: str = "parabola",
     noise: float | None = None,
     min_height: float | None = None,
+    shoulders: bool = False,
 ) -> PeakResult:
     """Find peaks, refine their centres by a local fit, and measure them.
 
@@ -268,6 +269,12 @@ def pick_peaks(
         baseline-corrected data.
     min_height : float, optional
         Least height above baseline (y units).
+    shoulders : bool
+        Also look for lines that stand only as shoulders of a picked one
+        (:func:`cageprint.spectra.shoulders.find_shoulders`; needs ``snr``); they are
+        listed in ``diagnostics["shoulders"]``, and lines standing close together are
+        fitted jointly for their areas (``diagnostics["clusters"]``, see
+        :func:`~cageprint.spectra.shoulders.split_areas`).
 
     Returns
     -------
@@ -410,6 +417,25 @@ def pick_peaks(
         heights.append(float(height))
         widths.append(float(fwhm))
         snrs.append(float(ratio))
+    if shoulders and snr is not None and positions:
+        from .shoulders import find_shoulders, fit_clusters  # scipy.optimize: when asked
+
+        extra = find_shoulders(x, yc, sigma, positions, heights, widths, snr=snr)
+        diag["shoulders"] = extra
+        for f in extra:
+            positions.append(f["position"])
+            heights.append(f["height"])
+            widths.append(f["width"])
+            snrs.append(f["height"] / sigma)
+        order = np.argsort(positions, kind="stable")
+        positions, heights, widths, snrs = ([v[i] for i in order]
+                                            for v in (positions, heights, widths, snrs))
+        diag["clusters"] = fit_clusters(x, yc, positions, heights, widths)
+        w0 = float(np.nanmedian(widths))
+        for members, _areas, centres in diag["clusters"]:  # the fitted centres of close lines
+            for k, c in zip(members, centres, strict=True):
+                if abs(c - positions[k]) < 0.5 * w0:
+                    positions[k] = c
     positions_a = np.array(positions)
     widths_a = np.array(widths)
     areas = np.array([])

@@ -46,6 +46,7 @@ from ..errors import EvidenceError, SpectrumError
 from ..plain import freeze_fields
 from ..plain import plain as _plain
 from ..spectra import integrate, pick_peaks, references
+from ..spectra.shoulders import split_areas
 from ..symmetry import predict_nmr  # re-exported: one module per technique
 from ..verdict import TechniqueVerdict
 from .nmr_match import (
@@ -339,11 +340,12 @@ def _pick_profile(spectrum, snr, prominence, halfwidth):
     The whole trace is searched (lines outside the region are then listed as
     left out); integrals are taken after the same baseline correction.
     """
-    peaks = pick_peaks(spectrum, snr=snr, prominence=prominence)
+    peaks = pick_peaks(spectrum, snr=snr, prominence=prominence, shoulders=True)
     if len(peaks) == 0:
         return np.array([]), np.array([]), np.array([]), peaks.diagnostics.get("noise"), None
     ints = integrate(spectrum, peaks, half_width=halfwidth, baseline="arpls")
-    area = np.maximum(np.asarray(ints.integrals, float), 1e-300)
+    area = np.maximum(split_areas(ints.integrals, peaks.diagnostics.get("clusters") or ()),
+                      1e-300)
     widths = np.asarray(peaks.widths, float)
     widths = widths[np.isfinite(widths) & (widths > 0)]
     width = float(np.median(widths)) if widths.size else None
@@ -442,10 +444,8 @@ def compare_nmr(
     if profile and tols is not None:  # one spread for all; pairs: see .nmr_pairs
         patterns = tuple(sorted({sizes} | {p for p, _ in listed}))
         args = (patterns, tuple(logs), costs[:8], noise, _crowding_factor(observation))
-        if partners:
-            spread, table = pair_fit(*args, (mixture_cost, minor_component_cost))
-        else:
-            spread = shared_spread(*args)
+        spread, table = (pair_fit(*args, (mixture_cost, minor_component_cost)) if partners
+                         else (shared_spread(*args), None))
         tols = tols_at(spread, noise)
         costs = (spread,) + costs[1:]
     cost, picks, values, counts, ln_s = _fit(sizes, logs, costs, tols)
