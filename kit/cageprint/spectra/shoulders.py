@@ -49,31 +49,54 @@ def _voigt(x, c, h, w, eta):
 
 def _fit(xw, yw, lines, w0):
     """Least-squares pseudo-Voigt lines (shared ``eta``) from starts ``lines`` = [(c, h)];
-    returns (residual sum of squares, [(c, h, w)]) or None."""
+    returns (residual sum of squares, [(c, h, w)]) or None when the fit fails or leaves the
+    window, a height below zero or a width outside 0.3-3 ``w0``.  Fitted in units of ``w0``
+    and of the largest start height (Levenberg-Marquardt, analytic Jacobian; widths as
+    logarithms and ``eta`` as a logit, so no bounds are needed)."""
     from scipy.optimize import least_squares  # slow to import: only when a shoulder is tried
 
-    p0, lo, hi = [], [], []
+    x0, hs = float(xw[0]), max(max(h for _c, h in lines), 1e-300)
+    u, v = (np.asarray(xw) - x0) / w0, np.asarray(yw) / hs
+    k, ln2 = len(lines), math.log(2.0)
+    if u.size <= 3 * k + 1:
+        return None
+    p0 = []
     for c, h in lines:
-        p0 += [c, max(h, 1e-12), w0]
-        lo += [xw[0], 0.0, 0.3 * w0]
-        hi += [xw[-1], np.inf, 3.0 * w0]
-    p0.append(0.5)
-    lo.append(0.0)
-    hi.append(1.0)
-    p0 = np.clip(p0, lo, hi)
+        p0 += [(c - x0) / w0, max(h / hs, 1e-6), 0.0]
+    p0 = np.array(p0 + [0.0])
+
+    def parts(p):
+        c, h = p[0:3 * k:3, None], p[1:3 * k:3, None]
+        w = np.exp(np.clip(p[2:3 * k:3, None], -5.0, 5.0))
+        t = (u[None, :] - c) / (w / 2.0)
+        lor, gau = 1.0 / (1.0 + t * t), np.exp(-ln2 * t * t)
+        return h, w, t, lor, gau, 1.0 / (1.0 + math.exp(-min(max(p[-1], -50.0), 50.0)))
 
     def resid(p):
-        model = sum(_voigt(xw, p[3 * i], p[3 * i + 1], p[3 * i + 2], p[-1])
-                    for i in range(len(lines)))
-        return model - yw
+        h, _w, _t, lor, gau, eta = parts(p)
+        return (h * (eta * lor + (1.0 - eta) * gau)).sum(axis=0) - v
+
+    def jac(p):
+        h, w, t, lor, gau, eta = parts(p)
+        slope = h * (eta * (-2.0 * t * lor * lor) + (1.0 - eta) * (-2.0 * ln2 * t * gau))
+        out = np.empty((u.size, 3 * k + 1))
+        out[:, 0:3 * k:3] = (slope * (-2.0 / w)).T
+        out[:, 1:3 * k:3] = (eta * lor + (1.0 - eta) * gau).T
+        out[:, 2:3 * k:3] = (-slope * t).T  # d/d ln w = w d/dw
+        out[:, -1] = (h * (lor - gau)).sum(axis=0) * eta * (1.0 - eta)
+        return out
 
     try:
-        res = least_squares(resid, p0, bounds=(lo, hi), max_nfev=200 * len(p0))
+        res = least_squares(resid, p0, jac=jac, method="lm", max_nfev=100 * len(p0))
     except (ValueError, np.linalg.LinAlgError):
         return None
     p = res.x
-    return float(np.sum(res.fun ** 2)), [(float(p[3 * i]), float(p[3 * i + 1]),
-                                          float(p[3 * i + 2])) for i in range(len(lines))]
+    out = [(x0 + float(p[3 * i]) * w0, float(p[3 * i + 1]) * hs,
+            float(math.exp(min(max(p[3 * i + 2], -5.0), 5.0))) * w0) for i in range(k)]
+    if not all(xw[0] <= c <= xw[-1] and h > 0 and 0.3 * w0 <= w <= 3.0 * w0
+               for c, h, w in out):
+        return None
+    return float(np.sum(res.fun ** 2)) * hs * hs, out
 
 
 def find_shoulders(x, y, sigma: float, positions, heights, widths, *,
@@ -187,7 +210,7 @@ def fit_clusters(x, y, positions, heights, widths) -> list[tuple[list[int], list
     >>> x = np.linspace(0.0, 10.0, 4001)
     >>> line = lambda c, h: h / (1 + ((x - c) / 0.05) ** 2)
     >>> y = line(5.0, 100.0) + line(5.12, 50.0) + line(8.0, 70.0)
-    >>> [(i, round(a[0] / a[1], 2), np.round(c, 3).tolist()) for i, a, c in fit_clusters(
+    >>> [(i, round(float(a[0] / a[1]), 2), np.round(c, 3).tolist()) for i, a, c in fit_clusters(
     ...     x, y, [5.0, 5.11, 8.0], [100.0, 50.0, 70.0], [0.1] * 3)]
     [([0, 1], 2.0, [5.0, 5.12])]
     """
