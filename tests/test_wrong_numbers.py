@@ -257,3 +257,28 @@ def test_orbits_sharing_a_shape_stay_apart_under_colour_vision_deficiency(n, ipr
             for (c1, s1), (c2, s2) in itertools.combinations(styles, 2):
                 if s1 == s2:
                     assert deltaE(seen[c1], seen[c2], input_space="sRGB1") >= 10, (cvd, c1, c2)
+
+
+def test_tables_align_text_left(sc3n_c80, tmp_path):
+    # issue 15: "Ranking and record tables right-align long text" (common practice, no
+    # source: text columns read left to right)
+    from cageprint.figures import html_table
+    from cageprint.report import write_report
+    from cageprint.widgets import ranking_rows
+
+    table = html_table(ranking_rows(sc3n_c80.ranking), name="ranking")
+    assert ".cp-table th,.cp-table td{" in table and "text-align:left" in table
+    assert "text-align:right" not in table
+    write_report(sc3n_c80, tmp_path / "report.html")
+    page = (tmp_path / "report.html").read_text(encoding="utf-8")
+    assert "text-align:left" in page and "text-align:right" not in page
+
+
+def test_the_report_names_techniques_not_keys(sc3n_c80, tmp_path):
+    # issue 15: '"using mass, nmr"' (common practice, no source: the reader sees technique
+    # names, not the kit's internal keys)
+    from cageprint.report import write_report
+
+    write_report(sc3n_c80, tmp_path / "report.html")
+    page = (tmp_path / "report.html").read_text(encoding="utf-8")
+    assert "using mass, nmr" not in page and "mass, nmr" not in page
