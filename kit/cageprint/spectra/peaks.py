@@ -21,6 +21,7 @@ from .filters import (
     smooth_array,
 )
 from .model import Spectrum, _plain
+from .shoulders import find_shoulders, fit_clusters
 
 __all__ = [
     "PEAK_SNR",
@@ -418,8 +419,6 @@ def pick_peaks(
         widths.append(float(fwhm))
         snrs.append(float(ratio))
     if shoulders and snr is not None and positions:
-        from .shoulders import find_shoulders, fit_clusters  # scipy.optimize: when asked
-
         extra = find_shoulders(x, yc, sigma, positions, heights, widths, snr=snr)
         diag["shoulders"] = extra
         for f in extra:

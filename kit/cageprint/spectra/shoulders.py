@@ -134,6 +134,7 @@ def find_shoulders(x, y, sigma: float, positions, heights, widths, *,
     >>> find_shoulders(x, line(5.0, 100.0), 1.0, [5.0], [100.0], [0.1], snr=5.0)
     []
     """
+    # scipy submodules take 0.1-0.3 s each to import: only when shoulders are looked for
     from scipy.ndimage import uniform_filter1d
     from scipy.signal import find_peaks
 
