@@ -192,6 +192,17 @@ def missing_costs(values, ln_scale, costs) -> np.ndarray:
     return np.minimum(-np.log(p_lost), float(c_miss))
 
 
+@functools.lru_cache(maxsize=256)
+def _ln_choose(m: int) -> tuple[np.ndarray, np.ndarray]:
+    """``(k, ln C(m, k))`` for ``k = 0..m`` (read-only; memoised: every fit asks again)."""
+    k = np.arange(m + 1, dtype=float)
+    out = np.array([math.lgamma(m + 1) - math.lgamma(x + 1) - math.lgamma(m - x + 1)
+                    for x in range(m + 1)])
+    k.flags.writeable = False
+    out.flags.writeable = False
+    return k, out
+
+
 def end_costs(values, counts, ln_scale, costs) -> list[np.ndarray]:
     """Cost of each number of unseen orbits, per orbit size: ``table[i][k]`` for ``k``
     of the ``counts[i]`` orbits of ``values[i]`` carbons not seen.
@@ -212,9 +223,7 @@ def end_costs(values, counts, ln_scale, costs) -> list[np.ndarray]:
     detect = len(costs) > 6 and bool(costs[6]) and ln_scale is not None
     out = []
     for c, m in zip(miss, counts, strict=True):
-        k = np.arange(m + 1, dtype=float)
-        ln_choose = (math.lgamma(m + 1) - np.array([math.lgamma(x + 1) for x in k])
-                     - np.array([math.lgamma(m - x + 1) for x in k]))
+        k, ln_choose = _ln_choose(int(m))
         table = k * float(c) - ln_choose
         if detect:
             p = math.exp(-float(c))
