@@ -48,7 +48,7 @@ def _layout(sizes: tuple[int, ...], max_merge: int):
     flat = np.arange(n_states, dtype=np.intp)
     valid = np.all(grids[None, :, :] >= k_arr[:, :, None], axis=1)
     gather = np.where(valid, flat[None, :] - offsets[:, None], n_states)
-    left = np.array(counts, float)[:, None] - grids
+    left = np.array(counts, np.intp)[:, None] - grids  # row index into each end-cost table
     return (values, counts, options, np.log(contents), n_orb, gather,
             np.asarray(offsets, dtype=np.intp), left)
 
@@ -98,9 +98,8 @@ def _assign(sizes, logs, ln_scale, costs, tols=None, aside=None):
     if aside is not None and have:
         imps_arr = aside.none_costs(shifted, ln_scale, spread, top, costs)
     history = _dp_forward(line_costs, imps_arr, gather)
-    left_i = left.astype(np.intp)
     total = history[n_lines, :n_states] + sum(
-        table[row] for table, row in zip(ends, left_i, strict=True))
+        table[row] for table, row in zip(ends, left, strict=True))
     state = int(np.argmin(total))
     cost = float(total[state])
     chosen = _dp_back(history, line_costs, imps_arr, gather, offsets, state)
