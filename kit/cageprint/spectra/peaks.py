@@ -430,11 +430,9 @@ def pick_peaks(
         positions, heights, widths, snrs = ([v[i] for i in order]
                                             for v in (positions, heights, widths, snrs))
         diag["clusters"] = fit_clusters(x, yc, positions, heights, widths)
-        w0 = float(np.nanmedian(widths))
         for members, _areas, centres in diag["clusters"]:  # the fitted centres of close lines
             for k, c in zip(members, centres, strict=True):
-                if abs(c - positions[k]) < 0.5 * w0:
-                    positions[k] = c
+                positions[k] = c
     positions_a = np.array(positions)
     widths_a = np.array(widths)
     areas = np.array([])

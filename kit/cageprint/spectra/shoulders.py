@@ -41,10 +41,18 @@ SHOULDER_WINDOW = 3.0
 SHOULDER_MAX = 200
 
 
-def _voigt(x, c, h, w, eta):
-    """Pseudo-Voigt of height ``h`` and FWHM ``w``: ``eta`` Lorentzian, the rest Gaussian."""
-    t = (x - c) / (w / 2.0)
-    return h * (eta / (1.0 + t * t) + (1.0 - eta) * np.exp(-math.log(2.0) * t * t))
+def _lorentzians(x, pos, hts, wds, w0, skip=()):
+    """Sum of the picked lines at ``x`` as Lorentzians, except those indexed in ``skip``;
+    each width capped at 1.5 ``w0`` (a blend measures wide) or ``w0`` where unknown, each
+    line drawn out to 30 widths."""
+    out = np.zeros(len(x))
+    for k, (c, h, w) in enumerate(zip(pos, hts, wds, strict=True)):
+        if k in skip:
+            continue
+        w = min(w, 1.5 * w0) if np.isfinite(w) and w > 0 else w0
+        lo, hi = np.searchsorted(x, [c - 30 * w, c + 30 * w])
+        out[lo:hi] += h / (1.0 + ((x[lo:hi] - c) / (w / 2.0)) ** 2)
+    return out
 
 
 def _fit(xw, yw, lines, w0):
@@ -119,8 +127,7 @@ def find_shoulders(x, y, sigma: float, positions, heights, widths, *,
     -------
     list of dict
         ``position``, ``height``, ``width`` of each shoulder, ``beside`` the picked line it
-        leans on, ``gain`` (the drop of the residual sum of squares in noise units), and the
-        fitted ``area`` and ``beside_area`` (height x width: the two share one shape).
+        leans on and ``gain`` (the drop of the residual sum of squares in noise units).
 
     Examples
     --------
@@ -148,11 +155,7 @@ def find_shoulders(x, y, sigma: float, positions, heights, widths, *,
     dx = float(np.median(np.diff(x)))
     if not dx > 0 or w0 < 4 * dx:
         return []  # lines a few points wide: no shape to fit
-    model = np.zeros_like(y)
-    for c, h, w in zip(pos, hts, wds, strict=True):
-        w = min(w, 1.5 * w0) if np.isfinite(w) and w > 0 else w0
-        lo, hi = np.searchsorted(x, [c - 30 * w, c + 30 * w])
-        model[lo:hi] += h / (1.0 + ((x[lo:hi] - c) / (w / 2.0)) ** 2)
+    model = _lorentzians(x, pos, hts, wds, w0)
     half = max(1, int(round(w0 / 3.0 / dx)))
     smooth = uniform_filter1d(y - model, 2 * half + 1)
     idx, _ = find_peaks(smooth, height=snr * sigma, distance=max(1, int(w0 / dx / 2)))
@@ -171,12 +174,7 @@ def find_shoulders(x, y, sigma: float, positions, heights, widths, *,
         lo, hi = np.searchsorted(x, [min(c1, c2) - SHOULDER_WINDOW * w0,
                                      max(c1, c2) + SHOULDER_WINDOW * w0])
         xw = x[lo:hi]
-        others = np.zeros(xw.size)
-        for k in np.flatnonzero(np.abs(pos - c1) < 30 * w0):
-            if k != j:
-                wk = min(wds[k], 1.5 * w0) if good[k] else w0
-                others += hts[k] / (1.0 + ((xw - pos[k]) / (wk / 2.0)) ** 2)
-        yw = y[lo:hi] - others
+        yw = y[lo:hi] - _lorentzians(xw, pos, hts, wds, w0, skip=(j,))
         one = _fit(xw, yw, [(c1, float(hts[j]))], w0)
         two = _fit(xw, yw, [(c1, float(hts[j])), (c2, float(smooth[i]))], w0)
         if one is None or two is None:
@@ -188,8 +186,7 @@ def find_shoulders(x, y, sigma: float, positions, heights, widths, *,
         if np.min(np.abs(pos - p2)) < SHOULDER_MIN_SEPARATION * w0:
             continue
         found.append({"position": p2, "height": h2, "width": w2, "beside": c1,
-                      "gain": float(gain), "beside_area": two[1][0][1] * two[1][0][2],
-                      "area": h2 * w2})
+                      "gain": float(gain)})
     return sorted(found, key=lambda f: f["position"])
 
 
@@ -204,7 +201,8 @@ def fit_clusters(x, y, positions, heights, widths) -> list[tuple[list[int], list
     each cluster is fitted as pseudo-Voigt lines of one shape over the points within
     :data:`SHOULDER_WINDOW` widths of its ends (the lines outside it subtracted as
     Lorentzians).  Returns ``(indices, areas, centres)`` per cluster, ``areas`` as height x
-    width.
+    width, ``centres`` the fitted ones (the picked one where the fit moved it by half a line
+    width or more).
 
     Examples
     --------
@@ -234,18 +232,16 @@ def fit_clusters(x, y, positions, heights, widths) -> list[tuple[list[int], list
         lo, hi = np.searchsorted(x, [pos[members[0]] - SHOULDER_WINDOW * w0,
                                      pos[members[-1]] + SHOULDER_WINDOW * w0])
         xw = x[lo:hi]
-        others = np.zeros(xw.size)
-        for k in np.flatnonzero(np.abs(pos - pos[members[0]]) < 30 * w0 + pos[members[-1]]
-                                - pos[members[0]]):
-            if k not in members:
-                wk = min(wds[k], 1.5 * w0) if good[k] else w0
-                others += hts[k] / (1.0 + ((xw - pos[k]) / (wk / 2.0)) ** 2)
-        fit = _fit(xw, y[lo:hi] - others, [(pos[k], hts[k]) for k in members], w0)
+        fit = _fit(xw, y[lo:hi] - _lorentzians(xw, pos, hts, wds, w0, skip=members),
+                   [(pos[k], hts[k]) for k in members], w0)
         if fit is None:
             continue
         areas = [h * w for _c, h, w in fit[1]]
+        # a fitted centre more than half a line width from the picked one is not taken
+        centres = [c if abs(c - pos[k]) < 0.5 * w0 else float(pos[k])
+                   for k, (c, _h, _w) in zip(members, fit[1], strict=True)]
         if all(a > 0 for a in areas):
-            out.append((members, areas, [c for c, _h, _w in fit[1]]))
+            out.append((members, areas, centres))
     return out
 
 
