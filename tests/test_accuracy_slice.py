@@ -163,3 +163,32 @@ def test_reliability_bands_on_hand_made_outcomes():
     empty = runner.reliability([])
     assert [row["cases"] for row in empty.values()] == [0, 0, 0, 0]
     assert all(math.isnan(row["true in first group"]) for row in empty.values())
+
+
+def test_unresolved_pairs_are_counted_and_split_on():
+    # the corpus notes how many pairs of true cage lines sit closer than UNRESOLVED_HZ; the
+    # benchmark splits its figures on that count (common practice, no source: lines closer
+    # than about one line width are not resolved)
+    counts = []
+    for seed in range(5, 25):
+        _text, truth = nmr13c.make_case(np.random.default_rng([seed, 2]), "C84", True,
+                                        runner.true_pool("C84", True), mixture=False)
+        counts.append(truth.notes["unresolved_pairs"])
+    assert all(isinstance(k, int) and k >= 0 for k in counts)
+    assert 0 in counts and max(counts) > 0   # the corpus makes coincidences, not always
+
+    def o(pairs, hit, ipr=True):
+        t = nmr13c.Truth(formula="C84", ipr=ipr, isomers=(1,), shares=(1.0,), patterns=("x",),
+                         solvent_declared="CS2", lock="", snr=10.0, mhz=100.6,
+                         notes={"unresolved_pairs": pairs})
+        return runner.Outcome(seed=0, truth=t, in_first=hit, first_size=1,
+                              first_same_pattern=True, ruled_out=False, partner_named=True,
+                              seconds=0.0)
+
+    table = runner.by_resolution([o(0, True), o(0, True), o(2, False), o(1, True),
+                                  o(0, False, ipr=False)])
+    assert list(table) == ["single IPR, resolved", "single IPR, unresolved",
+                           "single non-IPR, resolved"]
+    assert table["single IPR, resolved"]["cases"] == 2
+    assert table["single IPR, unresolved"]["true in first group"] == 0.5
+    assert table["single non-IPR, resolved"]["true in first group"] == 0.0

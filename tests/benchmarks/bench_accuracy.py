@@ -68,6 +68,9 @@ def main() -> None:
     _print_table(runner.summary(outcomes))
     print("targets (issue 10): true in first group >= 95 % single, >= 90 % mixtures; "
           "partner named >= 90 %; true ruled out <= 1 %; first group one pattern")
+    print(f"split by unresolved pairs (true cage lines closer than "
+          f"{runner.nmr13c.UNRESOLVED_HZ:g} Hz, made by the corpus's coincidences)")
+    _print_table(runner.by_resolution(outcomes), first_col=28)
     print("reliability: share the kit gives its first-rank group vs. true isomer in it")
     _print_table(runner.reliability(outcomes))
     print(f"misses ({len(misses)}):")

@@ -202,6 +202,11 @@ def to_text(x: np.ndarray, y: np.ndarray, *, solvent: str, mhz: float, title: st
     return ("\n".join(head) + "\n" + body + "\n").encode()
 
 
+#: two cage lines closer than this (Hz) count as an unresolved pair in ``Truth.notes``: about
+#: the corpus's median line width, so no picker can be expected to split them (invented bound)
+UNRESOLVED_HZ = 2.0
+
+
 def make_case(rng: np.random.Generator, formula: str, ipr: bool, pool: list,
               *, mixture: bool, intensity: str = "lognormal") -> tuple[bytes, Truth]:
     """One spectrum of ``formula``: a random true isomer from ``pool`` (candidates), or two.
@@ -231,6 +236,8 @@ def make_case(rng: np.random.Generator, formula: str, ipr: bool, pool: list,
             lines.append((float(ppm), share * s * f))
             heights_ref.append(share * s * f)
     med_area = float(np.median(heights_ref))
+    cage_ppm = np.sort([ppm for ppm, _ in lines])
+    unresolved = int(np.sum(np.diff(cage_ppm) * mhz < UNRESOLVED_HZ))
     lock = str(rng.choice(["", "C6D6", "C6D6", "toluene-d8", "1,2-dichlorobenzene-d4"]))
     if lock:
         strength = med_area * rng.uniform(1.0, 6.0)
@@ -251,5 +258,5 @@ def make_case(rng: np.random.Generator, formula: str, ipr: bool, pool: list,
                   shares=tuple(shares), patterns=tuple(c.pattern for c in picks),
                   solvent_declared=declared, lock=lock, snr=snr, mhz=mhz,
                   notes={"undeclared_lock": undeclared, "intensity": intensity,
-                         **model_notes})
+                         "unresolved_pairs": unresolved, **model_notes})
     return to_text(x, y, solvent=declared, mhz=mhz, title=f"corpus {formula}"), truth

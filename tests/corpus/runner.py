@@ -161,6 +161,34 @@ def summary(outcomes: list[Outcome]) -> dict[str, dict[str, float]]:
     return out
 
 
+def _kind(o: Outcome) -> str:
+    if len(o.truth.isomers) == 2:
+        return "mixtures"
+    return "single IPR" if o.truth.ipr else "single non-IPR"
+
+
+def by_resolution(outcomes: list[Outcome]) -> dict[str, dict[str, float]]:
+    """The main figures split by whether the true spectrum has cage lines closer than
+    ``nmr13c.UNRESOLVED_HZ`` (``Truth.notes["unresolved_pairs"]``): how much of what is
+    missed comes from coincidences the corpus makes on purpose."""
+    out = {}
+    for kind in ("single IPR", "single non-IPR", "mixtures"):
+        for label, test in (("resolved", lambda k: k == 0), ("unresolved", lambda k: k > 0)):
+            g = [o for o in outcomes if _kind(o) == kind
+                 and test(o.truth.notes.get("unresolved_pairs", 0))]
+            if not g:
+                continue
+            mix20 = [o for o in g if len(o.truth.isomers) == 2 and o.truth.shares[1] >= 0.2]
+            out[f"{kind}, {label}"] = {
+                "cases": len(g),
+                "true in first group": float(np.mean([o.in_first for o in g])),
+                "partner named (minor >= 20 %)": (float(np.mean([o.partner_named
+                                                                 for o in mix20]))
+                                                  if mix20 else float("nan")),
+            }
+    return out
+
+
 def _band_label(k: int) -> str:
     edges = [f"{100 * e:g}" for e in SHARE_BANDS]
     if k == 0:
