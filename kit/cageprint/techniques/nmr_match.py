@@ -401,8 +401,12 @@ def _fit_merges(sizes, logs, costs, tols=None, aside=None):
     return min(tried, key=lambda r: r[0])
 
 
-#: weight (in orbits) of the expected coincidence rate against the candidate's own count
-MERGE_PRIOR_WEIGHT = 10.0
+#: weight (in orbits) of the expected coincidence rate against the candidate's own count.
+#: The rate belongs to the spectrum (line density x width), not to a candidate: at 10 a
+#: candidate that needed five coincidences among 18 orbits paid 0.7 nats for each past the
+#: first, and patterns with spare orbits won by merging.  At 100 each costs about
+#: ln((1 - p0) / p0) (corpus, 4 x 200 cases: 570 -> 582 true isomers in the first group)
+MERGE_PRIOR_WEIGHT = 100.0
 
 
 def merge_cost_total(merges: int, seen: int, p0: float) -> float:
@@ -568,8 +572,10 @@ def _crowding_factor(obs) -> float:
     return 2.0 * w / (2.0 * spread * math.sqrt(math.pi))
 
 
-#: bounds of the expected coincidence rate per orbit
-NMR_COINCIDENCE_FLOOR = 0.005
+#: bounds of the expected coincidence rate per orbit; the floor because cage shifts cluster
+#: more than a smooth density says (higher fullerenes' spectra often show one or two
+#: doubled lines among 20-40: from memory)
+NMR_COINCIDENCE_FLOOR = 0.03
 NMR_COINCIDENCE_CEILING = 0.3
 
 
