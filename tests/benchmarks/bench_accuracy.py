@@ -7,9 +7,15 @@ C66/C68, single isomers and two-isomer mixtures (minor share 15-50 %).  Each cas
 the public path (text file -> reader -> session ranking).  Asserts nothing.
 
 Run: python tests/benchmarks/bench_accuracy.py [cases, default 320] [first seed, default 1000]
+[--why]
 (``CAGEPRINT_BENCH_NMR='{"integral_tol": 0.3}'`` tries other NMR settings;
 ``CAGEPRINT_CORPUS_INTENSITY=saturation`` makes the corpus with the partial-saturation
 intensity model instead of the default log-normal one, see ``tests/corpus/nmr13c.py``)
+
+``--why`` also diagnoses every single-isomer miss (``runner.explain_miss``): the true
+assignment of lines to orbits priced with the kit's own terms, against the kit's fit of the
+true pattern (cheaper: the search missed it) and against the first row (dearer: the
+model prefers the winner, and no search would change that).
 
 After the main table, a reliability table: the cases per band of the share the kit gives
 its first-rank group, and how often the true isomer is in that group.
@@ -43,8 +49,10 @@ def _print_table(table: dict[str, dict[str, float]], first_col: int = 16) -> Non
 
 
 def main() -> None:
-    n = int(sys.argv[1]) if len(sys.argv) > 1 else 320
-    first = int(sys.argv[2]) if len(sys.argv) > 2 else 1000
+    why = "--why" in sys.argv
+    args = [a for a in sys.argv[1:] if a != "--why"]
+    n = int(args[0]) if args else 320
+    first = int(args[1]) if len(args) > 1 else 1000
     t0 = time.perf_counter()
     outcomes = []
     misses = []
@@ -75,6 +83,24 @@ def main() -> None:
     _print_table(runner.reliability(outcomes))
     print(f"misses ({len(misses)}):")
     print("\n".join(misses[:60]))
+    if why:
+        _why(outcomes, model)
+
+
+def _why(outcomes, model: str) -> None:
+    """The search or the model?  Costs in nats (lower is more probable)."""
+    rows = [(o.seed, runner.explain_miss(o.seed, intensity=model)) for o in outcomes
+            if not o.in_first and len(o.truth.isomers) == 1]
+    if not rows:
+        return
+    search = [s for s, w in rows if w["true assignment"] < w["kit"] - 0.05]
+    wins = [s for s, w in rows if w["true assignment"] < w["first row"]]
+    gap = sorted(w["kit"] - w["first row"] for _, w in rows)
+    print(f"why ({len(rows)} single-isomer misses): the true assignment costs less than the "
+          f"kit's fit of the true pattern in {len(search)} {search[:10]}, less than the first "
+          f"row in {len(wins)} {wins[:10]}; the kit's true pattern is within 1 nat of the "
+          f"first row in {sum(g < 1 for g in gap)}, within 2 in {sum(g < 2 for g in gap)}, "
+          f"median {gap[len(gap) // 2]:.1f} nats behind")
 
 
 if __name__ == "__main__":

@@ -229,9 +229,11 @@ def make_case(rng: np.random.Generator, formula: str, ipr: bool, pool: list,
     factors, model_notes = INTENSITY_MODELS[intensity](rng)
     lines: list[tuple[float, float]] = []
     heights_ref = []
+    orbit_ppm = []
     for cand, share in zip(picks, shares, strict=True):
         sizes = tuple(cand.nmr_sizes)
         shifts = orbit_shifts(sizes, rng, nonipr=not ipr, crowd_p=0.08)
+        orbit_ppm.append(tuple(round(float(q), 6) for q in shifts))
         for s, ppm, f in zip(sizes, shifts, factors(sizes, shifts, ipr), strict=True):
             lines.append((float(ppm), share * s * f))
             heights_ref.append(share * s * f)
@@ -258,5 +260,6 @@ def make_case(rng: np.random.Generator, formula: str, ipr: bool, pool: list,
                   shares=tuple(shares), patterns=tuple(c.pattern for c in picks),
                   solvent_declared=declared, lock=lock, snr=snr, mhz=mhz,
                   notes={"undeclared_lock": undeclared, "intensity": intensity,
-                         "unresolved_pairs": unresolved, **model_notes})
+                         "unresolved_pairs": unresolved, "orbit_ppm": tuple(orbit_ppm),
+                         **model_notes})
     return to_text(x, y, solvent=declared, mhz=mhz, title=f"corpus {formula}"), truth

@@ -18,6 +18,7 @@ import numpy as np
 
 from cageprint import Session
 from cageprint.api import candidates as make_candidates
+from cageprint.techniques import nmr, nmr_match, nmr_pairs
 
 from . import nmr13c
 
@@ -127,6 +128,61 @@ def run_case(seed: int, settings: dict | None = None, *,
         first_same_pattern=len({r.candidate.pattern for r in first}) <= 1,
         ruled_out=out, partner_named=_partner_named(major_row, truth), seconds=dt,
         first_share=float(sum(r.share for r in first)))
+
+
+#: an orbit counts as carried by an observed line this close (ppm; about 2 Hz at 100 MHz)
+ORBIT_MATCH_PPM = 0.02
+
+
+def _fit_costs(obs, n_orbits: int, spread: float) -> tuple:
+    """The costs tuple the 13C comparison fits with at its default settings (as
+    ``compare_nmr`` assembles it; ``test_accuracy_slice`` checks the two agree)."""
+    return ((spread, nmr.NMR_MAX_MERGE, nmr.NMR_MERGE_COST, nmr.NMR_IMPURITY_COST,
+             nmr.NMR_IMPURITY_STRENGTH_COST, nmr.NMR_MISSING_COST)
+            + nmr_match._detection(obs, True) + (nmr_match._crowding(obs, n_orbits),))
+
+
+def true_picks(sizes, orbit_ppm, positions) -> list:
+    """The true assignment: each orbit to the nearest observed line within
+    ``ORBIT_MATCH_PPM`` (else unseen); per line, orbit counts per distinct size (largest
+    first), or None for a line no orbit made."""
+    values = sorted(set(sizes), reverse=True)
+    pos = np.asarray(positions, float)
+    picks = [[0] * len(values) for _ in range(pos.size)]
+    for size, ppm in zip(sizes, orbit_ppm, strict=True):
+        j = int(np.argmin(np.abs(pos - ppm))) if pos.size else -1
+        if j >= 0 and abs(pos[j] - ppm) < ORBIT_MATCH_PPM:
+            picks[j][values.index(size)] += 1
+    return [tuple(k) if sum(k) else None for k in picks]
+
+
+def explain_miss(seed: int, *, intensity: str | None = None) -> dict:
+    """Why a single-isomer case ranks another pattern first: the kit's cost of the true
+    pattern, the cost of the true assignment of lines to its orbits (same terms, same
+    spread: :func:`cageprint.techniques.nmr_pairs.assignment_cost`) and the first row's
+    cost.  If the true assignment costs less than the kit's fit of the true pattern, the
+    search missed it; if it costs more than the first row, the model prefers the winner."""
+    formula, ipr, mixture = case_spec(seed)
+    rng = np.random.default_rng([seed, 2])
+    text, truth = nmr13c.make_case(rng, formula, ipr, true_pool(formula, ipr), mixture=mixture,
+                                   intensity=intensity_model(intensity))
+    s = Session(formula)
+    s.set_candidates(pool(formula, ipr))
+    s.set_threshold("nmr", "solvent", truth.solvent_declared)
+    s.load("nmr", text, name=f"corpus-{seed}.csv")
+    ranking, obs = s.ranking, s.observation("nmr")
+    row = ranking.row(truth.isomers[0])
+    v = row.verdicts["nmr"]
+    sizes = tuple(row.candidate.nmr_sizes)
+    picks = true_picks(sizes, truth.notes["orbit_ppm"][0], obs.positions)
+    logs = [math.log(a) for a in obs.integrals]
+    spread = v.details["spread"]
+    costs = _fit_costs(obs, len(sizes), spread)
+    tols = nmr_match.tols_at(spread, nmr_match.line_noise(obs))
+    return {"kit": float(v.details["cost"]),
+            "true assignment": nmr_pairs.assignment_cost(sizes, logs, tols, picks, costs),
+            "first row": float(-ranking.rows[0].score),
+            "unseen orbits": len(sizes) - sum(sum(k) for k in picks if k is not None)}
 
 
 def run(seeds: range, settings: dict | None = None, *,

@@ -148,6 +148,36 @@ def explanation_cost(sizes, logs, tols, picks, ln_s, costs) -> float:
     return cost + sum(float(t[m - u]) for t, m, u in zip(ends, counts, used, strict=True))
 
 
+def assignment_cost(sizes, logs, tols, picks, costs) -> float:
+    """What one pattern's explanation of every line costs, with the scale fitted to it.
+
+    ``picks`` gives each line's orbit counts (per distinct size, largest first) or None for
+    an impurity.  The same terms as a single pattern's fit (its lines, coincidences,
+    unseen orbits, impurity lines and their number, labelling), so a fit is never dearer
+    than the assignment it found, and an assignment made by hand, or the true one of a
+    test spectrum, can be priced against it.
+
+    Examples
+    --------
+    >>> logs = [math.log(4.0)] * 3 + [math.log(2.0)]
+    >>> costs = (0.3, 3, 2.0, 1.5, 6.0, 3.9, 0.0, 0.0)
+    >>> right = assignment_cost((4, 4, 4, 2), logs, [0.3] * 4, [(1, 0)] * 3 + [(0, 1)], costs)
+    >>> wrong = assignment_cost((4, 4, 4, 2), logs, [0.3] * 4, [(1, 0)] * 2 + [None, (0, 1)],
+    ...                         costs)
+    >>> right < wrong
+    True
+    """
+    values = sorted(set(sizes), reverse=True)
+    w = [(t ** -2, math.log(sum(ki * v for ki, v in zip(k, values, strict=True))) - ell)
+         for k, ell, t in zip(picks, logs, tols, strict=True) if k is not None]
+    ln_s = sum(a * d for a, d in w) / sum(a for a, _ in w) if w else 0.0
+    cost = explanation_cost(sizes, logs, tols, picks, ln_s, costs)
+    imps = [ell for k, ell in zip(picks, logs, strict=True) if k is None]
+    cost += sum(costs[3] + costs[4] * math.exp(2.0 * (ell + ln_s)) / values[0] ** 2
+                for ell in imps)
+    return cost + impurity_count_cost(len(imps)) + labeling_cost(picks)
+
+
 @dataclass(frozen=True)
 class Pair:
     """One explanation of the lines by two patterns.
