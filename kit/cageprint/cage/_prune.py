@@ -131,9 +131,19 @@ def _slot(key, cap):
 
 
 @njit(cache=True, inline="always")
+def _cap(table):
+    # slots of a table of `cap` keys followed by its `cap // 64` words of home-slot bits
+    return (table.shape[0] // 65) * 64
+
+
+@njit(cache=True, inline="always")
 def memo_has(table, key):
-    cap = table.shape[0]
+    cap = _cap(table)
     j0 = _slot(key, cap)
+    # most keys looked up were never put: a set bit per home slot (a table 64 times
+    # smaller, that stays in cache) answers most of them without reading the slots
+    if not (table[cap + (j0 >> 6)] >> (j0 & 63)) & 1:
+        return False
     for p in range(_PROBES):
         v = table[(j0 + p) & (cap - 1)]
         if v == key:
@@ -145,7 +155,7 @@ def memo_has(table, key):
 
 @njit(cache=True, inline="always")
 def memo_put(table, key):
-    cap = table.shape[0]
+    cap = _cap(table)
     j0 = _slot(key, cap)
     j = j0
     for p in range(_PROBES):
@@ -153,8 +163,12 @@ def memo_put(table, key):
             j = (j0 + p) & (cap - 1)
             break
     table[j] = key
+    # (two threads setting bits of one word at once may lose one: that only forgets)
+    table[cap + (j0 >> 6)] |= 1 << (j0 & 63)
 
 
 def new_memo() -> np.ndarray:
-    """An empty dead-state table (the search threads and every cage size may share it)."""
-    return np.zeros(MEMO_SIZE, np.int64)
+    """An empty dead-state table (the search threads and every cage size may share it):
+    :data:`MEMO_SIZE` slots, then one bit per slot (set when a key whose first slot it is
+    was put)."""
+    return np.zeros(MEMO_SIZE + MEMO_SIZE // 64, np.int64)
