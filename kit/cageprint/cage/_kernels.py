@@ -286,6 +286,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     umax = fill_bound(nf)
     ring = ring_codes()
     rf = np.zeros(5, np.int64)
+    mark = np.zeros(nf + 1, np.int64)
     memo = kstop >= nf and table.shape[0] > 1  # dead states are known only in a full search
     bits = RIM_BITS + 1 if ipr else RIM_BITS
     if ctl[2] == 0:
@@ -311,7 +312,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             if k == nf:  # a complete spiral: keep it if no pentagon start gives a smaller one
                 windups += 1
                 fill_next(tri, nxt)
-                keep = is_canonical(nxt, size, deg, nbr, uout, placed, cnt, ubnd, ring, rf)
+                keep = is_canonical(nxt, size, deg, nbr, uout, placed, cnt, ubnd, ring, rf,
+                                    mark)
             if keep:  # (or a prefix of the requested length: listed, not searched deeper)
                 j = 0
                 for i in range(12):
