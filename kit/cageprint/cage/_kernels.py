@@ -373,7 +373,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         nt = ptr[2]
         # the rim code follows every change of the rim (rv: it is known)
         rc = ptr[6]
-        rv = rc >= 0
+        rv = memo and rc >= 0
         deg[k] = 0
         ok = True
         closed = False
