@@ -327,3 +327,37 @@ def test_known_hexagon_start_cages_equal_a_fresh_search():
     for n, spirals in HEXAGON_START_CAGES.items():
         found = [tuple(r) for b in _run(K.new_search_state(n, 6), False) for r in b.tolist()]
         assert found == list(spirals)
+
+
+def test_fast_reading_of_spirals_agrees_with_the_counting_one():
+    # the canonicity test reads competitor spirals without counting placed neighbours
+    # (_canon.read_off); on every start of every C44 cage (and against each cage's own
+    # sizes) it must give the same result and, where it does not fail, the same faces;
+    # a failing reading may stop a face earlier (own consistency check, no source)
+    from cageprint.cage import _canon as C
+    from cageprint.cage import _kernels as K
+
+    n = 44
+    nf = n // 2 + 2
+    out, out2 = np.zeros(nf, np.int64), np.zeros(nf, np.int64)
+    placed, cnt = np.zeros(nf, np.int64), np.zeros(nf, np.int64)
+    bnd, mark = np.zeros(nf + 1, np.int64), np.zeros(nf + 1, np.int64)
+    readings = 0
+    for row in np.concatenate(list(iter_spirals(n))):
+        size = np.full(nf, 6, np.int64)
+        size[row - 1] = 5
+        _s, _f, _o, deg, nbr, tri = K.windup(size, False)
+        nxt = K.next_matrix(tri, nf)
+        for f0 in range(nf):
+            for f1 in nbr[f0, : deg[f0]]:
+                for sense, have_ref in itertools.product((0, 1), (False, True)):
+                    a = K.unwind(f0, f1, sense, nxt, size, deg, nbr, size, have_ref, out, placed,
+                                 cnt, bnd)
+                    b, steps = C.read_off(f0, f1, sense, nxt, size, deg, size, have_ref, out2,
+                                          mark, bnd)
+                    assert a == b
+                    if a >= 0:  # (1: abandoned at the first larger face)
+                        assert np.array_equal(out[:steps], out2[:steps])
+                        assert steps == nf or a == 1
+                    readings += 1
+    assert readings == 89 * (12 * 5 + 12 * 6) * 2 * 2  # every start, sense and reference

@@ -22,8 +22,21 @@ from __future__ import annotations
 
 import numpy as np
 
+from ._canon import is_canonical, ring_codes, unwind
+
 # njit, or a stand-in without numba (defined once, in _prune)
-from ._prune import fill_bound, memo_has, memo_key, memo_put, njit
+from ._prune import (
+    RIM_BITS,
+    RIM_CODE_BITS,
+    fill_bound,
+    memo_has,
+    memo_key,
+    memo_put,
+    memo_wanted,
+    njit,
+    rim_code,
+    rim_field,
+)
 
 # status codes of _place (spiral.py turns them into words)
 OK = 0
@@ -184,84 +197,6 @@ def fill_next(tri, nxt):
         nxt[c, a] = b
 
 
-@njit(cache=True, inline="always")
-def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd):
-    """Read the face spiral starting at faces ``f0, f1`` in rotation ``sense``.
-
-    The face order goes to ``out``.  Returns -1 if no spiral starts there,
-    1 if its size sequence is larger than ``ref`` (abandoned at the first
-    larger face), 0 if equal, 2 if smaller (or if ``have_ref`` is false).
-    ``placed`` and ``cnt`` must be all zero on entry and are left so.
-    """
-    if have_ref and size[f0] == ref[0] and size[f1] > ref[1]:  # common: no work at all
-        return 1
-    r, steps = _unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd)
-    for i in range(steps):
-        f = out[i]
-        placed[f] = 0
-        for j in range(deg[f]):
-            cnt[nbr[f, j]] = 0
-    return r
-
-
-@njit(cache=True, inline="always")
-def _unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd):
-    # returns (result, number of faces placed) without cleaning up
-    nf = size.shape[0]
-    state = 0 if have_ref else 2
-    out[0] = f0
-    out[1] = f1
-    for k in range(2):
-        f = out[k]
-        if state == 0:
-            if size[f] < ref[k]:
-                state = 2
-            elif size[f] > ref[k]:
-                return 1, k
-        placed[f] = 1
-        for j in range(deg[f]):
-            cnt[nbr[f, j]] += 1
-    bnd[0] = f0
-    bnd[1] = f1
-    h = 0
-    t = 2
-    for k in range(2, nf):
-        bm = bnd[t - 1]
-        b0 = bnd[h]
-        if sense == 0:
-            f = nxt[bm, b0]
-        else:
-            f = nxt[b0, bm]
-        if f < 0 or placed[f]:
-            return -1, k
-        if state == 0:
-            if size[f] < ref[k]:
-                state = 2
-            elif size[f] > ref[k]:
-                return 1, k
-        out[k] = f
-        placed[f] = 1
-        for j in range(deg[f]):
-            cnt[nbr[f, j]] += 1
-        if k == nf - 1:
-            break
-        while True:
-            changed = False
-            if t - h >= 2 and cnt[bnd[h]] == deg[bnd[h]]:
-                h += 1
-                changed = True
-            if t - h >= 2 and cnt[bnd[t - 1]] == deg[bnd[t - 1]]:
-                t -= 1
-                changed = True
-            if not changed:
-                break
-        if cnt[f] == deg[f]:
-            return -1, k + 1
-        bnd[t] = f
-        t += 1
-    return state, nf
-
-
 @njit(cache=True)
 def smallest_spiral(nxt, size, deg, nbr, pentagon_starts_only):
     """Face order of the lexicographically smallest spiral (pentagon-first sizes).
@@ -294,41 +229,6 @@ def smallest_spiral(nxt, size, deg, nbr, pentagon_starts_only):
     return best_faces
 
 
-@njit(cache=True, inline="always")
-def _is_canonical(nxt, size, deg, nbr, out, placed, cnt, bnd):
-    # the spiral being tested is faces 0, 1, 2, ... in sense 0: its sizes are ``size``;
-    # starts towards a pentagon go first (when face 1 is a hexagon they read smaller at
-    # once, so a non-canonical spiral is usually caught by the first closing one)
-    nf = size.shape[0]
-    for second in (5, 6):
-        if second > size[1]:  # larger at once (checked here: calls cost)
-            break
-        for f0 in range(nf):
-            if size[f0] != size[0]:
-                continue
-            for j in range(deg[f0]):
-                f1 = nbr[f0, j]
-                if size[f1] != second:
-                    continue
-                for sense in range(2):
-                    if f0 == 0 and f1 == 1 and sense == 0:
-                        continue
-                    r = unwind(f0, f1, sense, nxt, size, deg, nbr, size, True, out, placed,
-                               cnt, bnd)
-                    if r == 2:
-                        return False
-    if size[0] == 6:  # the smallest from a hexagon: kept if no spiral from a pentagon closes
-        for f0 in range(nf):
-            if size[f0] != 5:
-                continue
-            for j in range(deg[f0]):
-                for sense in range(2):
-                    if unwind(f0, nbr[f0, j], sense, nxt, size, deg, nbr, size, False, out,
-                              placed, cnt, bnd) == 2:
-                        return False
-    return True
-
-
 def new_search_state(n, first=5):
     """Arrays holding a resumable depth-first search over spirals of C``n`` whose
     face 0 has ``first`` sides (6: the cages no spiral from a pentagon closes on)."""
@@ -338,9 +238,11 @@ def new_search_state(n, first=5):
         "deg": np.zeros(nf, np.int64),
         "nbr": np.zeros((nf, 6), np.int64),
         "bnd": np.zeros(nf + 1, np.int64),
-        "ptr": np.zeros(6, np.int64),
+        # as in `place`, and [6] the rim code (_prune.rim_code; -1: not known)
+        "ptr": np.array([0, 0, 0, 0, 0, 0, -1], np.int64),
         "tri": np.zeros((n, 3), np.int64),
         "nxt": -np.ones((nf, nf), np.int64),
+        # ptr saved per face ([3]: the rim code)
         "psave": np.zeros((nf + 1, 6), np.int64),
         # per face: its state key if it may be remembered as dead, and the windups then
         "mkey": np.zeros(nf + 1, np.int64),
@@ -382,7 +284,11 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
     kmin = ctl[5]
     kstop = ctl[6]
     umax = fill_bound(nf)
+    ring = ring_codes()
+    rf = np.zeros(5, np.int64)
+    mark = np.zeros(nf + 1, np.int64)
     memo = kstop >= nf and table.shape[0] > 1  # dead states are known only in a full search
+    bits = RIM_BITS + 1 if ipr else RIM_BITS
     if ctl[2] == 0:
         ctl[2] = 1
         if kmin <= 1:
@@ -392,6 +298,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             place(j, nf, size, deg, nbr, bnd, ptr, tri, ipr)
             if size[j] == 5:
                 npent += 1
+        ptr[6] = -1
         ctl[0] = kmin
         ctl[1] = npent
         tried[kmin] = 0
@@ -405,7 +312,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             if k == nf:  # a complete spiral: keep it if no pentagon start gives a smaller one
                 windups += 1
                 fill_next(tri, nxt)
-                keep = _is_canonical(nxt, size, deg, nbr, uout, placed, cnt, ubnd)
+                keep = is_canonical(nxt, size, deg, nbr, uout, placed, cnt, ubnd, ring, rf,
+                                    mark)
             if keep:  # (or a prefix of the requested length: listed, not searched deeper)
                 j = 0
                 for i in range(12):
@@ -434,6 +342,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
                 ptr[2] = psave[k, 2]
                 ptr[4] = psave[k, 4]
                 ptr[5] = psave[k, 5]
+                ptr[6] = psave[k, 3]
                 if size[k] == 5:
                     npent -= 1
             if nout >= max_out:
@@ -454,6 +363,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         psave[k, 2] = ptr[2]
         psave[k, 4] = ptr[4]
         psave[k, 5] = ptr[5]
+        psave[k, 3] = ptr[6]
         size[k] = s
         # lay face k: the same steps as `place`, written out here so that the
         # hot loop makes no calls (each call would count references to every
@@ -461,6 +371,9 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         h = ptr[0]
         t = ptr[1]
         nt = ptr[2]
+        # the rim code follows every change of the rim (rv: it is known)
+        rc = ptr[6]
+        rv = memo and rc >= 0
         deg[k] = 0
         ok = True
         closed = False
@@ -479,6 +392,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
                     break
                 nbr[x, deg[x]] = k
                 deg[x] += 1
+                if rv:
+                    rc -= (1 << (bits * (t - 1 - h))) if e == 0 else 1
                 nbr[k, e] = x
                 deg[k] = e + 1
             if ok:
@@ -494,11 +409,15 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
                         continue
                     # f is surrounded: it leaves the rim and k touches the face beyond it
                     if side == 0:
+                        if rv:
+                            rc = (rc - rim_field(f, size, deg, ipr)) >> bits
                         h += 1
                         nb = bnd[h]
                         a, b = f, nb
                     else:
                         t -= 1
+                        if rv:
+                            rc -= rim_field(f, size, deg, ipr) << (bits * (t - h))
                         nb = bnd[t - 1]
                         a, b = nb, f
                     closed = t - h == 1
@@ -510,6 +429,8 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
                             break
                         nbr[nb, deg[nb]] = k
                         deg[nb] += 1
+                        if rv:
+                            rc -= 1 if side == 0 else 1 << (bits * (t - 1 - h))
                         nbr[k, deg[k]] = nb
                         deg[k] += 1
                     tri[nt, 0] = a
@@ -533,6 +454,10 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             old = bnd[t]
             bnd[t] = k
             t += 1
+            if rv and bits * (t - h) <= RIM_CODE_BITS:
+                rc += rim_field(k, size, deg, ipr) << (bits * (t - 1 - h))
+            else:
+                rv = False
         # a face shortens the rim by at most 2 (a pentagon by 1) while the last
         # face needs a rim of its own size; with isolated pentagons no two
         # pentagons follow each other either (consecutive faces touch)
@@ -545,9 +470,12 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
             elif k >= 2 and q < 6 and left > umax[m, q]:
                 ok = False  # more faces left than the rim can enclose (see fill_bound)
         mkey[k] = 0
-        if ok and memo and k >= 2 and k < nf - 1:
-            key = memo_key(bnd, h, t, size, deg, q, left, ipr)
-            if key != 0 and memo_has(table, key):
+        if ok and memo and k >= 2 and k < nf - 1 and memo_wanted(t - h, left, ipr):
+            if not rv:  # (the rim was too long to pack above)
+                rc = rim_code(bnd, h, t, size, deg, ipr)
+                rv = True
+            key = memo_key(rc, t - h, q, left)
+            if memo_has(table, key):
                 ok = False  # met before, and nothing closed from it
             else:
                 mkey[k] = key
@@ -563,6 +491,7 @@ def search(size, deg, nbr, bnd, ptr, tri, nxt, psave, tried, ctl, ipr, out, max_
         ptr[2] = nt
         ptr[4] = slot
         ptr[5] = old
+        ptr[6] = rc if rv else -1
         npent = np_after
         wmark[k] = windups
         k += 1

@@ -10,7 +10,8 @@ test suite compares the lists and the number of complete spirals):
   isolated pentagons also which rim faces are pentagons), the pentagons left
   and the faces left; the faces inside the rim play no part until the
   spiral is complete.  A state from which no spiral closed is packed
-  exactly into one integer (:func:`memo_key`) and kept in a small open-address
+  exactly into one integer (:func:`memo_key`, from the rim code
+  :func:`rim_code` that the search keeps up to date) and kept in a small open-address
   table; meeting it again cuts the subtree.  A full table overwrites old
   entries, which only forgets, never errs.
 
@@ -38,6 +39,9 @@ MEMO_LEFT = 18
 MEMO_MIN = 2
 #: and with a rim of at most this many faces (so the key fits one 64-bit integer)
 MEMO_RIM = 24
+#: bits per rim face in the rim code (free edges less one: 0..3), and the most it may use
+RIM_BITS = 2
+RIM_CODE_BITS = 60
 #: table entries (8 bytes each); one table serves every search thread
 MEMO_SIZE = 1 << 21
 #: how many neighbouring slots a key may take
@@ -74,24 +78,49 @@ def fill_bound(nf):
 
 
 @njit(cache=True, inline="always")
-def memo_key(bnd, h, t, size, deg, q, left, ipr):
-    """The state after a face is laid, packed into one positive integer (0: not kept)."""
+def rim_field(f, size, deg, ipr):
+    """Face ``f``'s field in the rim code: its free edges less one (0..3 on the rim, -1
+    once surrounded), with isolated pentagons also 4 for a hexagon."""
+    v = size[f] - deg[f] - 1
+    if ipr:
+        v += (size[f] - 5) << 2
+    return v
+
+
+@njit(cache=True, inline="always")
+def rim_code(bnd, h, t, size, deg, ipr):
+    """The rim ``bnd[h:t]`` packed into one integer, oldest face lowest (-1: too long).
+
+    Fields of :data:`RIM_BITS` (one more with isolated pentagons).  The search keeps
+    this code up to date as faces come and go (adding and taking off whole fields
+    by arithmetic, so a field may borrow from the next while a face is laid), and
+    calls this only to start it again after the rim was too long to pack.
+    """
+    bits = RIM_BITS + 1 if ipr else RIM_BITS
     m = t - h
-    if left > MEMO_LEFT or left < MEMO_MIN or m > MEMO_RIM or (ipr and m > MEMO_RIM * 2 // 3):
-        return 0
-    key = m | (q << 5) | (left << 9)
-    shift = 14
-    for i in range(m):
-        f = bnd[h + i]
-        r = size[f] - deg[f] - 1  # free edges, 1..4
-        if r < 0 or r > 3:
-            return 0
-        key |= r << shift
-        shift += 2
-        if ipr:
-            key |= (size[f] - 5) << shift
-            shift += 1
-    return key + 1
+    if bits * m > RIM_CODE_BITS:
+        return -1
+    code = 0
+    for i in range(m - 1, -1, -1):
+        code = (code << bits) + rim_field(bnd[h + i], size, deg, ipr)
+    return code
+
+
+@njit(cache=True, inline="always")
+def memo_wanted(m, left, ipr):
+    """Whether a state with a rim of ``m`` faces and ``left`` faces to lay is remembered."""
+    return MEMO_MIN <= left <= MEMO_LEFT and m <= (MEMO_RIM * 2 // 3 if ipr else MEMO_RIM)
+
+
+@njit(cache=True, inline="always")
+def memo_key(code, m, q, left):
+    """The state after a face is laid, packed into one positive integer.
+
+    ``code``: :func:`rim_code` of a rim of ``m`` faces (every field 0..3 on a rim),
+    which :func:`memo_wanted` keeps short enough to fit beside ``m``, the
+    pentagons left ``q`` and the faces left ``left``.
+    """
+    return (m | (q << 5) | (left << 9) | (code << 14)) + 1
 
 
 @njit(cache=True, inline="always")
@@ -102,9 +131,19 @@ def _slot(key, cap):
 
 
 @njit(cache=True, inline="always")
+def _cap(table):
+    # slots of a table of `cap` keys followed by its `cap // 64` words of home-slot bits
+    return (table.shape[0] // 65) * 64
+
+
+@njit(cache=True, inline="always")
 def memo_has(table, key):
-    cap = table.shape[0]
+    cap = _cap(table)
     j0 = _slot(key, cap)
+    # most keys looked up were never put: a set bit per home slot (a table 64 times
+    # smaller, that stays in cache) answers most of them without reading the slots
+    if not (table[cap + (j0 >> 6)] >> (j0 & 63)) & 1:
+        return False
     for p in range(_PROBES):
         v = table[(j0 + p) & (cap - 1)]
         if v == key:
@@ -116,7 +155,7 @@ def memo_has(table, key):
 
 @njit(cache=True, inline="always")
 def memo_put(table, key):
-    cap = table.shape[0]
+    cap = _cap(table)
     j0 = _slot(key, cap)
     j = j0
     for p in range(_PROBES):
@@ -124,8 +163,12 @@ def memo_put(table, key):
             j = (j0 + p) & (cap - 1)
             break
     table[j] = key
+    # (two threads setting bits of one word at once may lose one: that only forgets)
+    table[cap + (j0 >> 6)] |= 1 << (j0 & 63)
 
 
 def new_memo() -> np.ndarray:
-    """An empty dead-state table (the search threads and every cage size may share it)."""
-    return np.zeros(MEMO_SIZE, np.int64)
+    """An empty dead-state table (the search threads and every cage size may share it):
+    :data:`MEMO_SIZE` slots, then one bit per slot (set when a key whose first slot it is
+    was put)."""
+    return np.zeros(MEMO_SIZE + MEMO_SIZE // 64, np.int64)
