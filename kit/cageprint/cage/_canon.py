@@ -21,6 +21,15 @@ from ._prune import njit
 
 
 @njit(cache=True, inline="always")
+def _order(state, s, r):
+    # the comparison with the reference after one more face (``s`` read, ``r`` the
+    # reference's): 0 equal so far, 2 smaller, 1 larger (decided at the first difference)
+    if state == 0 and s != r:
+        return 2 if s < r else 1
+    return state
+
+
+@njit(cache=True, inline="always")
 def unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt, bnd):
     """Read the face spiral starting at faces ``f0, f1`` in rotation ``sense``.
 
@@ -49,11 +58,9 @@ def _unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt,
     out[1] = f1
     for k in range(2):
         f = out[k]
-        if state == 0:
-            if size[f] < ref[k]:
-                state = 2
-            elif size[f] > ref[k]:
-                return 1, k
+        state = _order(state, size[f], ref[k])
+        if state == 1:
+            return 1, k
         placed[f] = 1
         for j in range(deg[f]):
             cnt[nbr[f, j]] += 1
@@ -70,11 +77,9 @@ def _unwind(f0, f1, sense, nxt, size, deg, nbr, ref, have_ref, out, placed, cnt,
             f = nxt[b0, bm]
         if f < 0 or placed[f]:
             return -1, k
-        if state == 0:
-            if size[f] < ref[k]:
-                state = 2
-            elif size[f] > ref[k]:
-                return 1, k
+        state = _order(state, size[f], ref[k])
+        if state == 1:
+            return 1, k
         out[k] = f
         placed[f] = 1
         for j in range(deg[f]):
@@ -159,11 +164,9 @@ def read_off(f0, f1, sense, nxt, size, deg, ref, have_ref, out, mark, bnd):
     out[1] = f1
     for k in range(2):
         f = out[k]
-        if state == 0:
-            if size[f] < ref[k]:
-                state = 2
-            elif size[f] > ref[k]:
-                return 1, k
+        state = _order(state, size[f], ref[k])
+        if state == 1:
+            return 1, k
         mark[f] = stamp
     bnd[0] = f0
     bnd[1] = f1
@@ -175,11 +178,9 @@ def read_off(f0, f1, sense, nxt, size, deg, ref, have_ref, out, mark, bnd):
         f = nxt[bm, b0] if sense == 0 else nxt[b0, bm]
         if f < 0 or mark[f] == stamp:
             return -1, k
-        if state == 0:
-            if size[f] < ref[k]:
-                state = 2
-            elif size[f] > ref[k]:
-                return 1, k
+        state = _order(state, size[f], ref[k])
+        if state == 1:
+            return 1, k
         out[k] = f
         mark[f] = stamp
         if k == nf - 1:
