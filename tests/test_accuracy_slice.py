@@ -20,7 +20,6 @@ import math
 import numpy as np
 import pytest
 
-from cageprint import Session
 from cageprint.evidence import VERDICTS
 from corpus import nmr13c, runner
 
@@ -31,15 +30,8 @@ SLICE = [s for s in range(1000, 1400) if runner.case_spec(s)[0] in ("C76", "C78"
 
 
 def _ranking(seed, intensity="lognormal"):
-    formula, ipr, mixture = runner.case_spec(seed)
-    rng = np.random.default_rng([seed, 2])
-    text, truth = nmr13c.make_case(rng, formula, ipr, runner.true_pool(formula, ipr),
-                                   mixture=mixture, intensity=intensity)
-    s = Session(formula)
-    s.set_candidates(runner.pool(formula, ipr))
-    s.set_threshold("nmr", "solvent", truth.solvent_declared)
-    s.load("nmr", text, name=f"corpus-{seed}.csv")
-    return s.ranking, truth
+    text, truth = runner.make(seed, intensity)
+    return runner.session_for(seed, text, truth).ranking, truth
 
 
 def _one_story(ranking, truth):
@@ -205,20 +197,14 @@ def test_an_assignment_is_priced_as_the_fit_prices_it():
 
     checked = 0
     for seed in SLICE:
-        ranking, truth = _ranking(seed)
+        text, truth = runner.make(seed)
         if len(truth.isomers) > 1:
             continue
-        row = ranking.row(truth.isomers[0])
+        s = runner.session_for(seed, text, truth)
+        row = s.ranking.row(truth.isomers[0])
         v = row.verdicts["nmr"]
         if v.details["second_component"] is not None:
             continue
-        s = Session(truth.formula)
-        s.set_candidates(runner.pool(truth.formula, True))
-        s.set_threshold("nmr", "solvent", truth.solvent_declared)
-        formula, ipr, mixture = runner.case_spec(seed)
-        text, _t = nmr13c.make_case(np.random.default_rng([seed, 2]), formula, ipr,
-                                    runner.true_pool(formula, ipr), mixture=mixture)
-        s.load("nmr", text, name="x.csv")
         obs = s.observation("nmr")
         sizes = tuple(row.candidate.nmr_sizes)
         logs = [math.log(a) for a in obs.integrals]

@@ -102,22 +102,34 @@ def _partner_named(row, truth: nmr13c.Truth) -> bool:
     return partner is not None and getattr(partner, "isomer", partner) == truth.isomers[1]
 
 
-def run_case(seed: int, settings: dict | None = None, *,
-             intensity: str | None = None) -> Outcome:
-    """Make case ``seed`` (intensity model as ``intensity_model(intensity)``), rank it through
-    a session and score it against its truth."""
+def make(seed: int, intensity: str | None = None) -> tuple[bytes, nmr13c.Truth]:
+    """Case ``seed``'s spectrum (text) and truth, areas by ``intensity_model(intensity)``."""
     formula, ipr, mixture = case_spec(seed)
     rng = np.random.default_rng([seed, 2])
-    text, truth = nmr13c.make_case(rng, formula, ipr, true_pool(formula, ipr), mixture=mixture,
-                                   intensity=intensity_model(intensity))
-    t0 = time.perf_counter()
-    s = Session(formula)
-    s.set_candidates(pool(formula, ipr))
+    return nmr13c.make_case(rng, formula, ipr, true_pool(formula, ipr), mixture=mixture,
+                            intensity=intensity_model(intensity))
+
+
+def session_for(seed: int, text: bytes, truth: nmr13c.Truth,
+                settings: dict | None = None) -> Session:
+    """A session with the case's candidates, its declared solvent, NMR ``settings`` and its
+    spectrum loaded (the ranking is computed when first asked for)."""
+    s = Session(truth.formula)
+    s.set_candidates(pool(truth.formula, truth.ipr))
     s.set_threshold("nmr", "solvent", truth.solvent_declared)
     for name, value in (settings or {}).items():
         s.set_threshold("nmr", name, value)
     s.load("nmr", text, name=f"corpus-{seed}.csv")
-    ranking = s.ranking
+    return s
+
+
+def run_case(seed: int, settings: dict | None = None, *,
+             intensity: str | None = None) -> Outcome:
+    """Make case ``seed`` (intensity model as ``intensity_model(intensity)``), rank it through
+    a session and score it against its truth."""
+    text, truth = make(seed, intensity)
+    t0 = time.perf_counter()
+    ranking = session_for(seed, text, truth, settings).ranking
     dt = time.perf_counter() - t0
     first = ranking.top()
     members = {r.candidate.isomer for r in first}
@@ -162,14 +174,8 @@ def explain_miss(seed: int, *, intensity: str | None = None) -> dict:
     spread: :func:`cageprint.techniques.nmr_pairs.assignment_cost`) and the first row's
     cost.  If the true assignment costs less than the kit's fit of the true pattern, the
     search missed it; if it costs more than the first row, the model prefers the winner."""
-    formula, ipr, mixture = case_spec(seed)
-    rng = np.random.default_rng([seed, 2])
-    text, truth = nmr13c.make_case(rng, formula, ipr, true_pool(formula, ipr), mixture=mixture,
-                                   intensity=intensity_model(intensity))
-    s = Session(formula)
-    s.set_candidates(pool(formula, ipr))
-    s.set_threshold("nmr", "solvent", truth.solvent_declared)
-    s.load("nmr", text, name=f"corpus-{seed}.csv")
+    text, truth = make(seed, intensity)
+    s = session_for(seed, text, truth)
     ranking, obs = s.ranking, s.observation("nmr")
     row = ranking.row(truth.isomers[0])
     v = row.verdicts["nmr"]
@@ -203,18 +209,22 @@ def summary(outcomes: list[Outcome]) -> dict[str, dict[str, float]]:
     for name, g in groups.items():
         if not g:
             continue
-        mix20 = [o for o in g if len(o.truth.isomers) == 2 and o.truth.shares[1] >= 0.2]
         out[name] = {
             "cases": len(g),
             "true in first group": float(np.mean([o.in_first for o in g])),
             "first group one pattern": float(np.mean([o.first_same_pattern for o in g])),
             "true ruled out": float(np.mean([o.ruled_out for o in g])),
-            "partner named (minor >= 20 %)": (float(np.mean([o.partner_named for o in mix20]))
-                                              if mix20 else float("nan")),
+            "partner named (minor >= 20 %)": _partner_rate(g),
             "mean first group size": float(np.mean([o.first_size for o in g])),
             "median s/case": float(np.median([o.seconds for o in g])),
         }
     return out
+
+
+def _partner_rate(g: list[Outcome]) -> float:
+    """Share of the mixtures in ``g`` with a minor share >= 20 % whose partner is named."""
+    mix20 = [o for o in g if len(o.truth.isomers) == 2 and o.truth.shares[1] >= 0.2]
+    return float(np.mean([o.partner_named for o in mix20])) if mix20 else float("nan")
 
 
 def _kind(o: Outcome) -> str:
@@ -234,13 +244,10 @@ def by_resolution(outcomes: list[Outcome]) -> dict[str, dict[str, float]]:
                  and test(o.truth.notes.get("unresolved_pairs", 0))]
             if not g:
                 continue
-            mix20 = [o for o in g if len(o.truth.isomers) == 2 and o.truth.shares[1] >= 0.2]
             out[f"{kind}, {label}"] = {
                 "cases": len(g),
                 "true in first group": float(np.mean([o.in_first for o in g])),
-                "partner named (minor >= 20 %)": (float(np.mean([o.partner_named
-                                                                 for o in mix20]))
-                                                  if mix20 else float("nan")),
+                "partner named (minor >= 20 %)": _partner_rate(g),
             }
     return out
 

@@ -173,9 +173,15 @@ def assignment_cost(sizes, logs, tols, picks, costs) -> float:
     ln_s = sum(a * d for a, d in w) / sum(a for a, _ in w) if w else 0.0
     cost = explanation_cost(sizes, logs, tols, picks, ln_s, costs)
     imps = [ell for k, ell in zip(picks, logs, strict=True) if k is None]
-    cost += sum(costs[3] + costs[4] * math.exp(2.0 * (ell + ln_s)) / values[0] ** 2
-                for ell in imps)
+    ln_ref = math.log(values[0]) - ln_s
+    cost += sum(_impurity_line(ell, ln_ref, costs) for ell in imps)
     return cost + impurity_count_cost(len(imps)) + labeling_cost(picks)
+
+
+def _impurity_line(ell: float, ln_ref: float, costs) -> float:
+    """An unexplained line of ln integral ``ell``, against the largest orbit's ``ln_ref``:
+    ``costs[3] + costs[4] r^2`` (``r`` the ratio of the two, as the fit prices it)."""
+    return costs[3] + costs[4] * math.exp(2.0 * (ell - ln_ref))
 
 
 @dataclass(frozen=True)
@@ -237,7 +243,7 @@ def pair_cost(lines: _Lines, patterns, picks, ln_s) -> float:
     n_imp = 0
     for j, (a, b) in enumerate(zip(*picks, strict=True)):
         if a is None and b is None:
-            cost += costs[3] + costs[4] * math.exp(2.0 * (logs[j] - ln_ref))
+            cost += _impurity_line(logs[j], ln_ref, costs)
             n_imp += 1
         kinds.append(None if a is None and b is None else ("first", a) if a is not None
                      else ("second", b))
